@@ -4,6 +4,7 @@ export { ssim } from './ssim';
 export type { SsimOptions } from './ssim';
 export { hogFeatures, hogPearson } from './hog';
 export type { HogOptions } from './hog';
+export { nss, cc, aucJudd, sim, energyInMask, pointingHit, boxToMask } from './ground-truth';
 export { mulberry32, randomMap, gaussianSampler, addGaussianNoise } from './random';
 export { gaussianBlurInput } from './blur';
 export type { InputLayout } from './input-layout';
