@@ -46,6 +46,7 @@ async function runModel(modelPath, inputName, x) {
 
 let failures = 0;
 const which = process.argv[2];
+const checkDir = process.env.FACTFOIL_FIXTURE_CHECK_DIR ?? '/tmp/factfoil-fixture-check';
 
 if (!which || which === 'ops') {
   const dir = path.join(root, 'ops');
@@ -81,11 +82,28 @@ if (!which || which === 'arch') {
       const logits = out[refs.output ?? names[0]];
       const want = refs.output_values ?? refs.logits;
       const err = relMaxErr(logits.data, want);
+      let tapNote = '(no export-time check data)';
+      const full = path.join(checkDir, name, 'full.onnx');
+      if (fs.existsSync(full)) {
+        // The export with every named tensor still a graph output: each must equal torch's hooked value.
+        const outNames = JSON.parse(fs.readFileSync(path.join(checkDir, name, 'outputs.json'), 'utf8'));
+        const all = await runModel(full, refs.input_name, readNpy(path.join(d, refs.input)));
+        let tapWorst = 0;
+        for (const n of outNames) {
+          const e = relMaxErr(all[n].data, readNpy(path.join(checkDir, name, `${n}.npy`)).data);
+          tapWorst = Math.max(tapWorst, e);
+          if (e > 1e-4) {
+            failures++;
+            console.log(`FAIL arch/${name}: tensor ${n} differs from torch, rel max err ${e.toExponential(2)}`);
+          }
+        }
+        tapNote = `${outNames.length} named tensors match torch, worst ${tapWorst.toExponential(2)}`;
+      }
       if (err > 1e-4 || names.length !== 1) {
         failures++;
         console.log(`FAIL arch/${name}: rel max err ${err.toExponential(2)} outputs ${names}`);
       } else {
-        console.log(`arch/${name}: output ${names[0]} matches torch, rel max err ${err.toExponential(2)}`);
+        console.log(`arch/${name}: output ${names[0]} matches torch, rel max err ${err.toExponential(2)}; ${tapNote}`);
       }
     }
   }
