@@ -11,5 +11,9 @@ export type { DeletionInsertionRequest, FaithfulnessCurve } from './deletion-ins
 export { gaussianBlurInput } from './blur';
 export type { InputLayout } from './input-layout';
 export { mulberry32, randomMap, gaussianSampler, addGaussianNoise } from './random';
+export { mapDrift } from './robustness';
+export type { MapDrift } from './robustness';
+export { summarize } from './summarize';
+export type { Summary } from './summarize';
 export { resizeBilinear } from './resize';
 export { trapezoidArea } from './trapezoid';
