@@ -1,0 +1,6 @@
+export * from './decode';
+export * from './resample';
+export * from './preprocess';
+export * from './colormap';
+export * from './normalize';
+export * from './overlay';
