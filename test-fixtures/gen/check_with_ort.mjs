@@ -92,6 +92,11 @@ if (!which || which === 'arch') {
         for (const n of outNames) {
           const e = relMaxErr(all[n].data, readNpy(path.join(checkDir, name, `${n}.npy`)).data);
           tapWorst = Math.max(tapWorst, e);
+          const layer = refs.layers.find((l) => l.tensor === n);
+          if (layer && JSON.stringify(Array.from(all[n].dims)) !== JSON.stringify([1, ...layer.shape])) {
+            failures++;
+            console.log(`FAIL arch/${name}: tensor ${n} has run-time shape ${all[n].dims}, refs say ${layer.shape}`);
+          }
           if (e > 1e-4) {
             failures++;
             console.log(`FAIL arch/${name}: tensor ${n} differs from torch, rel max err ${e.toExponential(2)}`);

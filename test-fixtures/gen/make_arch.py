@@ -195,12 +195,12 @@ def googlenet_spec():
 
 
 def mnasnet_spec():
-    m = torchvision.models.MNASNet(alpha=0.5, num_classes=NUM_CLASSES)
+    m = torchvision.models.MNASNet(alpha=0.25, num_classes=NUM_CLASSES)
     taps = [("stem", "layers.7", "out"), ("stage1", "layers.8", "out"), ("stage2", "layers.9", "out"),
             ("stage4", "layers.11", "out"), ("stage6", "layers.13", "out"), ("last_conv", "layers.16", "out"),
             ("stage3_block0_expand_inner", "layers.10.0.layers.2", "out")]
     return Spec(m, 64, taps, ["stem", "stage1", "stage2", "stage4", "stage6", "last_conv"],
-                notes="torchvision MNASNet, alpha 0.5")
+                notes="torchvision MNASNet, alpha 0.25")
 
 
 def vgg_spec():
@@ -421,19 +421,43 @@ def export_onnx(spec, x32, path):
 
 def verify_graph(model, layers):
     """Every named layer tensor exists, is produced by a node, is consumed by a node (so it lies
-    on a path to the scores), and has the torch shape under ONNX shape inference."""
-    inferred = onnx.shape_inference.infer_shapes(model)
+    on a path to the scores), and, where ONNX static shape inference can resolve it, has the torch
+    shape. Some exports compute shapes at run time (Shape -> ... -> Reshape/Pad), which static
+    inference cannot follow; those tensors are returned (check_with_ort.mjs checks their run-time
+    shapes)."""
+    inferred = onnx.shape_inference.infer_shapes(model, data_prop=True)
     shapes = {}
     for vi in list(inferred.graph.value_info) + list(inferred.graph.input) + list(inferred.graph.output):
-        shapes[vi.name] = [d.dim_value for d in vi.type.tensor_type.shape.dim]
+        shapes[vi.name] = [d.dim_value if d.HasField("dim_value") else None for d in vi.type.tensor_type.shape.dim]
     produced = {o for n in model.graph.node for o in n.output} | {i.name for i in model.graph.input}
     consumed = {i for n in model.graph.node for i in n.input}
+    unresolved = []
     for layer in layers:
         t = layer["tensor"]
         assert t in produced, f"tensor {t} not in graph"
         assert t in consumed, f"tensor {t} has no consumer (dangling)"
-        assert shapes.get(t) == [1] + layer["shape"], f"tensor {t}: onnx shape {shapes.get(t)} vs torch {layer['shape']}"
-    return sorted({n.op_type for n in model.graph.node})
+        want = [1] + layer["shape"]
+        got = shapes.get(t)
+        if got is None or len(got) != len(want) or any(g in (None, 0) for g in got):
+            unresolved.append(t)
+            continue
+        assert got == want, f"tensor {t}: onnx shape {got} vs torch {want}"
+    return sorted({n.op_type for n in model.graph.node}), unresolved
+
+
+def fd_spot_check(m64, x64, target, grad, family, n=4, eps=1e-6):
+    """Central FD of z[target] at a few input pixels of the float64 model, against autograd:
+    guards against hook or capture mistakes (an independent path to the same numbers)."""
+    idx = rng_for(family + "/fd").choice(x64.numel(), n, replace=False)
+    flat = x64.clone().reshape(-1)
+    with torch.no_grad():
+        for i in idx:
+            xp, xm = flat.clone(), flat.clone()
+            xp[i] += eps
+            xm[i] -= eps
+            fd = (m64(xp.reshape(x64.shape))[0, target] - m64(xm.reshape(x64.shape))[0, target]) / (2 * eps)
+            ad = grad.reshape(-1)[i]
+            assert abs(fd - ad) <= 1e-6 * max(1.0, abs(ad)) + 1e-7, f"{family}: FD {fd} vs autograd {ad} at {i}"
 
 
 def safe(name):
@@ -441,12 +465,14 @@ def safe(name):
 
 
 def make_family(family, build):
-    torch.manual_seed(torch_seed_for(family if family != "resnet_softmax" else "resnet"))
+    # resnet_softmax is the resnet (same weights, same input) with a trailing Softmax
+    base = "resnet" if family == "resnet_softmax" else family
+    torch.manual_seed(torch_seed_for(base))
     spec = build()
-    randomise(spec.model, family if family != "resnet_softmax" else "resnet")
+    randomise(spec.model, base)
     spec.model.eval()
     S = spec.size
-    x32 = torch.from_numpy(rng_for(family + "/input").standard_normal((1, 3, S, S)).astype(np.float32))
+    x32 = torch.from_numpy(rng_for(base + "/input").standard_normal((1, 3, S, S)).astype(np.float32))
 
     d = os.path.join(ARCH_DIR, family)
     os.makedirs(d, exist_ok=True)
@@ -477,7 +503,7 @@ def make_family(family, build):
 
     layers = [{"tensor": "input", "shape": shapes["input"]}] + [
         {"tensor": n, "shape": shapes[n]} for n, _, _ in spec.taps]
-    op_types = verify_graph(onnx_model, layers)
+    op_types, unresolved = verify_graph(onnx_model, layers)
 
     checks = [("input", "logit", t_top)]
     for n, _, _ in spec.taps:
@@ -488,6 +514,8 @@ def make_family(family, build):
         (g,) = torch.autograd.grad(s, acts[layer], retain_graph=True)
         g = g.detach().numpy()[0].astype(np.float64)
         assert np.linalg.norm(g) > 0, f"{family}: zero gradient at {layer}"
+        if layer == "input":
+            fd_spot_check(m64, x64.detach(), target, g, family)
         fname = f"grad_{safe(layer)}_{loss}_{target}.npy"
         save_npy(os.path.join(d, fname), g)
         check_rows.append({"layer": layer, "loss": loss, "target": target, "grad": fname})
@@ -511,6 +539,7 @@ def make_family(family, build):
         "layers": layers,
         "checks": check_rows,
         "stages_expected": spec.stages,
+        "static_shape_unresolved": unresolved,
         "op_types": op_types,
         "opset": 17,
         "torch_version": torch.__version__,
