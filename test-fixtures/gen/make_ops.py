@@ -347,7 +347,7 @@ def add_binary_cases():
     case(nm, "Max", "Max(x, const [3,1,1]); inputs >= 0.02 from the const", "Max-13", xx,
          [N("Max", ["x", "k"], ["y"])], {"k": k}, lambda x, c: torch.maximum(x, c["k"]))
     nm = "min_x_xderived"
-    case(nm, "Min", "Min(x, -0.5*x) (= -0.5|x| ... piecewise); inputs >= 0.02 from 0", "Min-13, Mul-14",
+    case(nm, "Min", "Min(x, -0.5*x): x where x < 0, -0.5x where x > 0; inputs >= 0.02 from 0", "Min-13, Mul-14",
          away_from(normal(nm, S), [0.0]),
          [N("Mul", ["x", "mh"], ["h"]), N("Min", ["x", "h"], ["y"])], {"mh": np.array(-0.5, np.float32)},
          lambda x, c: torch.minimum(x, -0.5 * x))
@@ -542,7 +542,7 @@ def add_shape_cases():
     case(nm, "Expand", "[1,3,1,4] expanded to shape [2,3,5,4]", "Expand-13", normal(nm, [1, 3, 1, 4]),
          [N("Expand", ["x", "shape"], ["y"])], {"shape": i64([2, 3, 5, 4])}, lambda x, c: x.expand(2, 3, 5, 4))
     nm = "expand_class_token"
-    case(nm, "Expand", "[1,1,4] with shape [1,-1,-1]... as exported: shape [1,1,4] (same-shape expand)",
+    case(nm, "Expand", "[1,1,4] expanded to its own shape [1,1,4] (the class-token expand at batch 1)",
          "Expand-13", normal(nm, [1, 1, 4]),
          [N("Expand", ["x", "shape"], ["y"])], {"shape": i64([1, 1, 4])}, lambda x, c: x.expand(1, 1, 4))
     nm = "tile"
