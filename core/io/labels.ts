@@ -183,14 +183,17 @@ export function resolveClass(arg: string, labels: readonly string[], what = 'cla
   );
 }
 
-/** The labels nearest to `text` by Levenshtein distance (case-insensitive), nearest first, within a distance of half the text length or 3. */
+/**
+ * The labels nearest to `text`, case-insensitive: labels containing it first, then by Levenshtein
+ * distance, keeping those within a distance of half the text length (at least 3).
+ */
 export function closestLabels(text: string, labels: readonly string[], n: number): string[] {
   const t = text.toLowerCase();
   const limit = Math.max(3, Math.ceil(t.length / 2));
   return labels
-    .map((l, i) => ({ l, i, d: levenshtein(t, l.toLowerCase()) }))
-    .filter((x) => x.d <= limit || x.l.toLowerCase().includes(t))
-    .sort((a, b) => a.d - b.d || a.i - b.i)
+    .map((l, i) => ({ l, i, d: levenshtein(t, l.toLowerCase()), sub: t !== '' && l.toLowerCase().includes(t) ? 0 : 1 }))
+    .filter((x) => x.d <= limit || x.sub === 0)
+    .sort((a, b) => a.sub - b.sub || a.d - b.d || a.i - b.i)
     .slice(0, n)
     .map((x) => x.l);
 }

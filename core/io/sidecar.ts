@@ -112,18 +112,18 @@ export function resolvePreprocessSpec(inputDims: readonly (number | string | nul
   if (!given) return base;
   const { preset, ...fields } = given;
   const spec: PreprocessSpec = { ...base, ...(preset ? clonePreset(preset) : {}), ...fields };
-  validatePreprocessSpec(spec, where);
-  const [hAxis, wAxis] = spec.layout === 'NCHW' ? [2, 3] : [1, 2];
   const fixed = (d: unknown) => (typeof d === 'number' && d > 0 ? d : undefined);
-  const fh = fixed(inputDims[hAxis]);
-  const fw = fixed(inputDims[wAxis]);
-  if ((fh !== undefined && fh !== spec.size[0]) || (fw !== undefined && fw !== spec.size[1])) {
-    throw new UserError(`${where}: preprocess.size [${spec.size.join(', ')}] does not match the model input [${inputDims.join(', ')}]`, 'remove size from the settings or set it to the model input size');
-  }
   const c = fixed(inputDims[spec.layout === 'NCHW' ? 1 : 3]);
   const nc = spec.channels === 'GRAY' ? 1 : 3;
   if (c !== undefined && c !== nc) {
     throw new UserError(`${where}: preprocess.channels ${spec.channels} gives ${nc} channel(s), the model input [${inputDims.join(', ')}] takes ${c}`, 'fix channels or layout in the settings');
+  }
+  validatePreprocessSpec(spec, where);
+  const [hAxis, wAxis] = spec.layout === 'NCHW' ? [2, 3] : [1, 2];
+  const fh = fixed(inputDims[hAxis]);
+  const fw = fixed(inputDims[wAxis]);
+  if ((fh !== undefined && fh !== spec.size[0]) || (fw !== undefined && fw !== spec.size[1])) {
+    throw new UserError(`${where}: preprocess.size [${spec.size.join(', ')}] does not match the model input [${inputDims.join(', ')}]`, 'remove size from the settings or set it to the model input size');
   }
   return spec;
 }
