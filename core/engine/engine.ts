@@ -1,0 +1,105 @@
+/**
+ * The engine: prepared models and compiled sessions, cached per (model sha256, input shape,
+ * plan), and runs of composed plans with seed batches. Everything ONNX goes through here.
+ */
+import { LoadedModel, loadModel } from '../model/load';
+import { PreparedModel, prepareModel } from '../plan/prepared';
+import { ComposedPlan, composePlan, PlanRequest } from '../plan/compose';
+import { concreteInputDims, probeModel } from './probe';
+import { createSession, floatTensor, ort, runSession, RuntimeOptions, defaultRuntimeOptions } from './runtime';
+
+export interface SeedBatch {
+  /** [K,R] row-major. */
+  base: Float32Array;
+  /** [K] softmax coefficients. */
+  coef: Float32Array;
+  k: number;
+}
+
+export interface CompiledPlan {
+  plan: ComposedPlan;
+  session: ort.InferenceSession;
+}
+
+export class Engine {
+  private readonly prepared = new Map<string, Promise<PreparedModel>>();
+  private readonly compiled = new Map<string, Promise<CompiledPlan>>();
+
+  constructor(readonly options: RuntimeOptions = defaultRuntimeOptions, private readonly maxSessions = 8) {}
+
+  /** Loads, probes and analyses a model once per (sha256, input shape). */
+  async prepare(model: string | LoadedModel, inputDims?: number[], opts: { anyScores?: boolean } = {}): Promise<PreparedModel> {
+    const m = typeof model === 'string' ? loadModel(model) : model;
+    const dims = inputDims ?? concreteInputDims(m.input.dims);
+    const key = `${m.sha256}|${dims.join('x')}|${opts.anyScores ? 'any' : 'cls'}`;
+    let p = this.prepared.get(key);
+    if (!p) {
+      p = probeModel(m, dims, undefined, this.options).then((facts) => prepareModel(m, facts, dims, opts.anyScores));
+      this.prepared.set(key, p);
+      p.catch(() => this.prepared.delete(key));
+    }
+    return p;
+  }
+
+  async compile(pm: PreparedModel, req: PlanRequest): Promise<CompiledPlan> {
+    const key = `${pm.model.sha256}|${pm.inputDims.join('x')}|${JSON.stringify(req)}`;
+    let c = this.compiled.get(key);
+    if (!c) {
+      c = (async () => {
+        const plan = composePlan(pm, req);
+        const session = await createSession(plan.bytes, `the explanation plan for ${pm.model.path}`, this.options);
+        return { plan, session };
+      })();
+      this.compiled.set(key, c);
+      c.catch(() => this.compiled.delete(key));
+      this.evict();
+    }
+    return c;
+  }
+
+  /** One native run of a compiled plan. `extra` feeds accumulators and scales by name. */
+  async run(pm: PreparedModel, cp: CompiledPlan, input: Float32Array, seeds: SeedBatch, fetch: string[], extra: Record<string, ort.Tensor> = {}): Promise<Record<string, ort.Tensor>> {
+    const R = pm.scores.numClasses;
+    const feeds = {
+      [pm.model.input.name]: floatTensor(input, pm.inputDims),
+      [cp.plan.seedBase]: floatTensor(seeds.base, [seeds.k, R]),
+      [cp.plan.seedCoef]: floatTensor(seeds.coef, [seeds.k, 1]),
+      ...extra,
+    };
+    return runSession(cp.session, feeds, fetch, `the explanation plan for ${pm.model.path}`);
+  }
+
+  /** Plain forward pass: the scores (logits) of one input. */
+  async scores(pm: PreparedModel, input: Float32Array): Promise<Float32Array> {
+    const cp = await this.compile(pm, { passes: [] });
+    const R = pm.scores.numClasses;
+    const out = await runSession(cp.session, { [pm.model.input.name]: floatTensor(input, pm.inputDims), ff_seed_base: floatTensor(new Float32Array(R), [1, R]), ff_seed_coef: floatTensor(new Float32Array(1), [1, 1]) }, [cp.plan.scoresOutput], pm.model.path);
+    return out[cp.plan.scoresOutput].data as Float32Array;
+  }
+
+  private evict(): void {
+    while (this.compiled.size > this.maxSessions) {
+      const [key, c] = this.compiled.entries().next().value as [string, Promise<CompiledPlan>];
+      this.compiled.delete(key);
+      c.then((x) => x.session.release()).catch(() => undefined);
+    }
+  }
+
+  async dispose(): Promise<void> {
+    for (const c of this.compiled.values()) await c.then((x) => x.session.release()).catch(() => undefined);
+    this.compiled.clear();
+    this.prepared.clear();
+  }
+}
+
+export function oneHotSeeds(R: number, rows: { index?: number; sign?: number; minus?: number; coef?: number }[]): SeedBatch {
+  const k = rows.length;
+  const base = new Float32Array(k * R);
+  const coef = new Float32Array(k);
+  rows.forEach((r, i) => {
+    if (r.index !== undefined) base[i * R + r.index] += r.sign ?? 1;
+    if (r.minus !== undefined) base[i * R + r.minus] -= 1;
+    coef[i] = r.coef ?? 0;
+  });
+  return { base, coef, k };
+}

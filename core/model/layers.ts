@@ -1,0 +1,154 @@
+/**
+ * Layers (intermediate tensors with a spatial grid) and stages (layers every input→scores path
+ * passes through). Stages come from the dominator tree of the tensor graph — a general graph
+ * algorithm, no name patterns: a tensor is a cut point iff it dominates the scores.
+ */
+import { ModelAnalysis } from './analysis';
+import { GraphNode } from './graph';
+import { hasGradientRule } from '../autodiff/rules';
+
+export interface LayerInfo {
+  /** The ONNX tensor name. */
+  id: string;
+  /** Shape without the batch axis: [C,H,W] or [N,D]. */
+  shape: number[];
+  kind: 'spatial' | 'tokens';
+  /** The map grid [h, w] (tokens: the square patch grid, class token excluded). */
+  grid: [number, number];
+  /** Tokens only: whether the first token is a class token left out of the grid. */
+  classToken?: boolean;
+  producer: string;
+  isStage: boolean;
+  /** Set when an op on the way to the scores has no gradient rule. */
+  blockedBy?: { opType: string; node: string };
+}
+
+function gridOf(dims: number[]): Pick<LayerInfo, 'kind' | 'grid' | 'classToken'> | undefined {
+  if (dims.length === 4 && dims[0] === 1 && dims[2] > 1 && dims[3] > 1) return { kind: 'spatial', grid: [dims[2], dims[3]] };
+  if (dims.length === 3 && dims[0] === 1) {
+    const n = dims[1];
+    for (const [count, cls] of [[n, false], [n - 1, true]] as [number, boolean][]) {
+      const side = Math.round(Math.sqrt(count));
+      if (side > 1 && side * side === count) return { kind: 'tokens', grid: [side, side], classToken: cls };
+    }
+  }
+  return undefined;
+}
+
+/** Differentiable inputs of a node. */
+function diffInputs(a: ModelAnalysis, n: GraphNode): string[] {
+  return n.inputs.filter((i) => i && a.differentiable(i));
+}
+
+/** Tensors from which `target` can be reached through differentiable tensors. */
+export function ancestorsOf(a: ModelAnalysis, target: string): Set<string> {
+  const seen = new Set<string>([target]);
+  const stack = [target];
+  while (stack.length) {
+    const t = stack.pop()!;
+    const p = a.graph.producer.get(t);
+    if (!p) continue;
+    for (const i of diffInputs(a, p)) if (!seen.has(i)) { seen.add(i); stack.push(i); }
+  }
+  return seen;
+}
+
+/** The chain of tensors dominating `scores` from the image input, shallow to deep. */
+export function cutPoints(a: ModelAnalysis, scores: string): string[] {
+  const relevant = ancestorsOf(a, scores);
+  const idom = new Map<string, string | null>([[a.inputName, null]]);
+  const depth = new Map<string, number>([[a.inputName, 0]]);
+  const lca = (x: string, y: string): string => {
+    while (x !== y) {
+      if (depth.get(x)! >= depth.get(y)!) x = idom.get(x)!; else y = idom.get(y)!;
+    }
+    return x;
+  };
+  for (const n of a.graph.order) {
+    const preds = diffInputs(a, n).filter((i) => relevant.has(i) && idom.has(i));
+    if (!preds.length) continue;
+    for (const o of n.outputs) {
+      if (!o || !relevant.has(o)) continue;
+      // A node output is dominated by its producer's inputs' common dominator; with several
+      // inputs the output itself still is a cut point when it lies on every path.
+      const dom = preds.length === 1 ? preds[0] : preds.reduce(lca);
+      idom.set(o, dom);
+      depth.set(o, depth.get(dom)! + 1);
+    }
+  }
+  if (!idom.has(scores)) return [];
+  const chain: string[] = [];
+  for (let t: string | null = scores; t !== null; t = idom.get(t) ?? null) chain.push(t);
+  return chain.reverse();
+}
+
+/** For each tensor on a path to the scores, the first node without a gradient rule downstream. */
+function blockers(a: ModelAnalysis, scores: string, relevant: Set<string>): Map<string, GraphNode> {
+  const blocked = new Map<string, GraphNode>();
+  for (const n of [...a.graph.order].reverse()) {
+    const outs = n.outputs.filter((o) => o && relevant.has(o));
+    if (!outs.length) continue;
+    const own = hasGradientRule(n.opType, n.domain) ? undefined : n;
+    const below = own ?? outs.map((o) => blocked.get(o)).find((x) => x);
+    if (!below) continue;
+    for (const i of diffInputs(a, n)) if (relevant.has(i) && !blocked.has(i)) blocked.set(i, below);
+  }
+  return blocked;
+}
+
+export function listLayers(a: ModelAnalysis, scores: string): LayerInfo[] {
+  const relevant = ancestorsOf(a, scores);
+  const blocked = blockers(a, scores, relevant);
+  const stages = new Set(pickStages(a, cutPoints(a, scores)));
+  const layers: LayerInfo[] = [];
+  for (const n of a.graph.order) {
+    for (const o of n.outputs) {
+      if (!o || !relevant.has(o) || !a.differentiable(o)) continue;
+      const g = gridOf(a.shape(o));
+      if (!g) continue;
+      const b = blocked.get(o);
+      layers.push({ id: o, shape: a.shape(o).slice(1), ...g, producer: `${n.opType} ${n.name}`, isStage: stages.has(o), blockedBy: b ? { opType: b.opType, node: b.name } : undefined });
+    }
+  }
+  return layers;
+}
+
+/**
+ * From the cut points, the stages worth stepping through: spatial cut points are grouped into
+ * runs of equal grid size and each run keeps its block output — the deepest output of a merge
+ * (a node joining two paths: residual Add, dense Concat) followed through same-shape
+ * single-input ops (ReLU after the Add), else the run's deepest cut point. Token cut points keep
+ * every merge output (one per residual connection). Our own heuristic, no source.
+ */
+export function pickStages(a: ModelAnalysis, cuts: string[]): string[] {
+  const info = cuts.map((t) => ({ t, g: gridOf(a.shape(t)), p: a.graph.producer.get(t) })).filter((c) => c.g && c.p);
+  const isMerge = (p: GraphNode) => diffInputs(a, p).length >= 2;
+  const out: string[] = [];
+  const extend = (run: typeof info, k: number): string => {
+    let j = k;
+    while (j + 1 < run.length) {
+      const next = run[j + 1];
+      const ins = diffInputs(a, next.p!);
+      if (ins.length === 1 && ins[0] === run[j].t && a.shape(next.t).join() === a.shape(run[j].t).join()) j++;
+      else break;
+    }
+    return run[j].t;
+  };
+  let i = 0;
+  while (i < info.length) {
+    let j = i;
+    const key = `${info[i].g!.kind}:${info[i].g!.grid.join('x')}`;
+    while (j + 1 < info.length && `${info[j + 1].g!.kind}:${info[j + 1].g!.grid.join('x')}` === key) j++;
+    const run = info.slice(i, j + 1);
+    if (info[i].g!.kind === 'tokens') {
+      run.forEach((c, k) => { if (isMerge(c.p!)) out.push(extend(run, k)); });
+      if (!run.some((c) => isMerge(c.p!))) out.push(run[run.length - 1].t);
+    } else {
+      let k = -1;
+      run.forEach((c, idx) => { if (isMerge(c.p!)) k = idx; });
+      out.push(k >= 0 ? extend(run, k) : run[run.length - 1].t);
+    }
+    i = j + 1;
+  }
+  return [...new Set(out)];
+}
