@@ -5,6 +5,9 @@
  */
 import type { DisplayRange, ImageGeometry } from './protocol';
 
+/** Maps a value to a colormap entry 0..255 (colorIndexFor in colormap.ts). */
+export type ColorIndex = (v: number) => number;
+
 export interface Grid { data: Float32Array; width: number; height: number }
 
 /**
@@ -29,20 +32,13 @@ export function imageToModel(geom: ImageGeometry, ix: number, iy: number): [numb
   return [(ix - geom.offsetX) / geom.scaleX, (iy - geom.offsetY) / geom.scaleY];
 }
 
-/** Index 0..255 into a colormap table for value v in [lo, hi]. */
-export function colorIndex(v: number, range: DisplayRange): number {
-  const span = range.hi - range.lo;
-  const t = span > 0 ? (v - range.lo) / span : 0;
-  return Math.round(Math.min(Math.max(t, 0), 1) * 255);
-}
-
 /**
  * RGBA pixels at the image's own size: each image pixel centre is mapped into the map (model-input
  * resolution) and sampled bilinearly; image pixels outside the model input (cropped away) stay
  * transparent. Opacity is applied by the caller (CSS), so alpha is 255 inside.
  */
 export function colorizeOntoImage(map: Grid, geom: ImageGeometry, imageWidth: number, imageHeight: number,
-  range: DisplayRange, table: Uint8Array): Uint8ClampedArray<ArrayBuffer> {
+  index: ColorIndex, table: Uint8Array): Uint8ClampedArray<ArrayBuffer> {
   const out = new Uint8ClampedArray(imageWidth * imageHeight * 4);
   for (let iy = 0; iy < imageHeight; iy++) {
     const my = (iy + 0.5 - geom.offsetY) / geom.scaleY;
@@ -50,7 +46,7 @@ export function colorizeOntoImage(map: Grid, geom: ImageGeometry, imageWidth: nu
     for (let ix = 0; ix < imageWidth; ix++) {
       const mx = (ix + 0.5 - geom.offsetX) / geom.scaleX;
       if (mx < 0 || mx >= map.width) continue;
-      const c = colorIndex(sampleBilinear(map, mx, my), range) * 3;
+      const c = index(sampleBilinear(map, mx, my)) * 3;
       const o = (iy * imageWidth + ix) * 4;
       out[o] = table[c]; out[o + 1] = table[c + 1]; out[o + 2] = table[c + 2]; out[o + 3] = 255;
     }
@@ -59,10 +55,10 @@ export function colorizeOntoImage(map: Grid, geom: ImageGeometry, imageWidth: nu
 }
 
 /** RGBA pixels of a grid at its own resolution (thumbnails; the canvas smooths when scaling). */
-export function colorizeGrid(g: Grid, range: DisplayRange, table: Uint8Array): Uint8ClampedArray<ArrayBuffer> {
+export function colorizeGrid(g: Grid, index: ColorIndex, table: Uint8Array): Uint8ClampedArray<ArrayBuffer> {
   const out = new Uint8ClampedArray(g.width * g.height * 4);
   for (let i = 0; i < g.data.length; i++) {
-    const c = colorIndex(g.data[i], range) * 3;
+    const c = index(g.data[i]) * 3;
     out[i * 4] = table[c]; out[i * 4 + 1] = table[c + 1]; out[i * 4 + 2] = table[c + 2]; out[i * 4 + 3] = 255;
   }
   return out;

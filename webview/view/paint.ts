@@ -1,5 +1,5 @@
 /** Paints colourised maps into canvases (the only place pixels meet the DOM). */
-import { colormapTable } from '../colormap';
+import { colorIndexFor, colormapTable } from '../colormap';
 import { colorizeGrid, colorizeOntoImage } from '../map-render';
 import type { ColormapName, DisplayRange, ImageGeometry } from '../protocol';
 import type { DecodedMap } from '../map-store';
@@ -16,7 +16,7 @@ export function paintOverlay(canvas: HTMLCanvasElement, map: DecodedMap, geom: I
     offsetX: geom.offsetX * (w / imageWidth), offsetY: geom.offsetY * (hgt / imageHeight) };
   canvas.width = w;
   canvas.height = hgt;
-  const px = colorizeOntoImage({ data: map.values, width: map.data.width, height: map.data.height }, g, w, hgt, range, colormapTable(colormap));
+  const px = colorizeOntoImage({ data: map.values, width: map.data.width, height: map.data.height }, g, w, hgt, colorIndexFor(range, colormap), colormapTable(colormap));
   canvas.getContext('2d')!.putImageData(new ImageData(px, w, hgt), 0, 0);
 }
 
@@ -25,6 +25,6 @@ export function paintRaw(canvas: HTMLCanvasElement, map: DecodedMap, range: Disp
   const { rawWidth: w, rawHeight: hgt } = map.data;
   canvas.width = w;
   canvas.height = hgt;
-  const px = colorizeGrid({ data: map.raw, width: w, height: hgt }, range, colormapTable(colormap));
+  const px = colorizeGrid({ data: map.raw, width: w, height: hgt }, colorIndexFor(range, colormap), colormapTable(colormap));
   canvas.getContext('2d')!.putImageData(new ImageData(px, w, hgt), 0, 0);
 }
