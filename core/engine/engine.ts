@@ -77,6 +77,14 @@ export class Engine {
     return out[cp.plan.scoresOutput].data as Float32Array;
   }
 
+  /** Forward activations of the given tensors (batch-1 shapes as in the model). */
+  async activations(pm: PreparedModel, input: Float32Array, tensors: string[]): Promise<Map<string, Float32Array>> {
+    const cp = await this.compile(pm, { passes: [], expose: tensors });
+    const R = pm.scores.numClasses;
+    const out = await runSession(cp.session, { [pm.model.input.name]: floatTensor(input, pm.inputDims), ff_seed_base: floatTensor(new Float32Array(R), [1, R]), ff_seed_coef: floatTensor(new Float32Array(1), [1, 1]) }, tensors, pm.model.path);
+    return new Map(tensors.map((t) => [t, out[t].data as Float32Array]));
+  }
+
   private evict(): void {
     while (this.compiled.size > this.maxSessions) {
       const [key, c] = this.compiled.entries().next().value as [string, Promise<CompiledPlan>];

@@ -24,6 +24,8 @@ export interface PlanPass {
 
 export interface PlanRequest {
   passes: PlanPass[];
+  /** Forward tensors to return as they are (activations, for checks and trust tests). */
+  expose?: string[];
 }
 
 /** Output names of one head at one layer: `raw` at layer resolution, `up` at input resolution. */
@@ -123,6 +125,7 @@ export function composePlan(pm: PreparedModel, req: PlanRequest): ComposedPlan {
     });
   });
 
+  for (const t of req.expose ?? []) graphOutputs.push(t);
   const scoresOutput = 'ff_out/scores';
   b.opTo('Identity', [pm.scores.tensor], [scoresOutput]);
   graphOutputs.push(scoresOutput);

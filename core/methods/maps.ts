@@ -1,0 +1,220 @@
+/**
+ * The map kinds of DESIGN §4 as plan recipes. Gradient questions (evidence, contrast) and the
+ * expectancy baseline share one run over all requested layers; guided backpropagation is a
+ * second pass in the same run; mismatch statistics sweep seeds in chunks.
+ */
+import { Engine, SeedBatch } from '../engine/engine';
+import { PreparedModel } from '../plan/prepared';
+import { headKey, HeadKind, PlanPass } from '../plan/compose';
+import { UserError } from '../errors';
+import { floatTensor } from '../engine/runtime';
+import { mulberry32 } from '../metrics/random';
+import { seedChunkSize } from '../engine/budget';
+
+export type MapKind = 'evidence' | 'contrast' | 'mismatch' | 'expectancy' | 'detail' | 'guided-evidence';
+export const MAP_KINDS: readonly MapKind[] = ['evidence', 'contrast', 'mismatch', 'expectancy', 'detail', 'guided-evidence'];
+export type ContrastVariant = 'margin' | 'loss';
+export type MismatchVariant = 'weighted' | 'gradient';
+export type Estimate = { mode: 'exact' } | { mode: 'probe'; k: number; seed: number };
+
+export interface Question {
+  kind: MapKind;
+  fact: number;
+  foil?: number;
+  contrast?: ContrastVariant;
+  mismatch?: MismatchVariant;
+}
+
+export interface Grid { data: Float32Array; width: number; height: number }
+
+export interface MapResult {
+  question: Question;
+  /** Layer id; the image input for detail maps. */
+  layer: string;
+  /** At layer resolution, unnormalized (input resolution for detail maps). */
+  raw: Grid;
+  /** Bilinearly upsampled to the model input (ONNX Resize linear, half_pixel). */
+  up: Grid;
+  estimate?: Estimate & { seeds: number };
+  note?: string;
+}
+
+export interface ExplainOptions {
+  estimate?: Estimate;
+  /** Memory budget for one chunk of seeds, bytes. */
+  budgetBytes?: number;
+  onProgress?: (done: number, total: number) => void;
+  signal?: AbortSignal;
+}
+
+const DEFAULT_PROBE_SEED = 1;
+
+/** The seed row of a gradient question (DESIGN §4): margin e_fact − e_foil, loss p − e_foil, evidence e_fact. */
+function questionSeed(q: Question, R: number): { base: Float32Array; coef: number } {
+  const base = new Float32Array(R);
+  if (q.kind === 'contrast') {
+    if (q.foil === undefined) throw new UserError('a contrast map needs a foil class', 'pass --foil <label|index>');
+    if ((q.contrast ?? 'margin') === 'margin') { base[q.fact] += 1; base[q.foil] -= 1; return { base, coef: 0 }; }
+    base[q.foil] = -1;
+    return { base, coef: 1 };
+  }
+  base[q.fact] = 1;
+  return { base, coef: 0 };
+}
+
+function stack(rows: { base: Float32Array; coef: number }[], R: number): SeedBatch {
+  const base = new Float32Array(rows.length * R);
+  const coef = new Float32Array(rows.length);
+  rows.forEach((r, i) => { base.set(r.base, i * R); coef[i] = r.coef; });
+  return { base, coef, k: rows.length };
+}
+
+function slice(t: { data: unknown; dims: readonly number[] }, k: number): Grid {
+  const dims = t.dims.map(Number);
+  const [h, w] = dims.slice(-2);
+  const data = (t.data as Float32Array).subarray(k * h * w, (k + 1) * h * w);
+  return { data: Float32Array.from(data), width: w, height: h };
+}
+
+export async function explainMaps(engine: Engine, pm: PreparedModel, input: Float32Array, questions: Question[], layers: string[], opts: ExplainOptions = {}): Promise<MapResult[]> {
+  for (const l of layers) {
+    const info = pm.layers.find((x) => x.id === l);
+    if (!info) throw new UserError(`'${l}' is not a layer of ${pm.model.path}`, 'run `factfoil layers <model>` to list them');
+    if (info.blockedBy) throw new UserError(`layer '${l}' cannot be explained: ${info.blockedBy.opType} node '${info.blockedBy.node}' on its way to the scores has no gradient rule`, 'pick a deeper layer');
+  }
+  const R = pm.scores.numClasses;
+  const gradQs = questions.filter((q) => q.kind === 'evidence' || q.kind === 'contrast');
+  const needDetail = questions.some((q) => q.kind === 'detail' || q.kind === 'guided-evidence');
+  // guided-evidence needs the evidence of its fact at each layer.
+  for (const q of questions) if (q.kind === 'guided-evidence' && !gradQs.some((g) => g.kind === 'evidence' && g.fact === q.fact)) gradQs.push({ kind: 'evidence', fact: q.fact });
+  const needExpectancy = questions.some((q) => q.kind === 'expectancy');
+  const results: MapResult[] = [];
+
+  const heads: HeadKind[] = [...(gradQs.length ? ['cam' as const] : []), ...(needExpectancy ? ['expectancy' as const] : [])];
+  const passes: PlanPass[] = [];
+  if (heads.length && layers.length) passes.push({ relu: 'standard', layers, heads });
+  const detailFacts = [...new Set(questions.filter((q) => q.kind === 'detail' || q.kind === 'guided-evidence').map((q) => q.fact))];
+  if (needDetail) passes.push({ relu: 'guided', layers: [pm.model.input.name], heads: ['detail'] });
+
+  const evidenceUp = new Map<string, Grid>();
+  if (passes.length) {
+    const cp = await engine.compile(pm, { passes });
+    // One seed row per gradient question, then one per detail fact (the guided pass reads those rows).
+    const rows = [...gradQs.map((q) => questionSeed(q, R)), ...detailFacts.map((f) => questionSeed({ kind: 'evidence', fact: f }, R))];
+    if (!rows.length) rows.push({ base: new Float32Array(R), coef: 0 });
+    const fetch = [...cp.plan.outputs.values()].flatMap((o) => [o.raw, o.up]).filter((x): x is string => !!x);
+    const out = await engine.run(pm, cp, input, stack(rows, R), fetch);
+    const guidedPass = passes.findIndex((p) => p.relu === 'guided');
+    for (const layer of layers) {
+      if (gradQs.length) {
+        const o = cp.plan.outputs.get(headKey(0, 'cam', layer))!;
+        gradQs.forEach((q, k) => {
+          const r = { question: q, layer, raw: slice(out[o.raw!], k), up: slice(out[o.up!], k) };
+          if (q.kind === 'evidence') evidenceUp.set(`${q.fact}|${layer}`, r.up);
+          if (questions.includes(q)) results.push(r);
+        });
+      }
+      if (needExpectancy) {
+        const o = cp.plan.outputs.get(headKey(0, 'expectancy', layer))!;
+        const q = questions.find((x) => x.kind === 'expectancy')!;
+        results.push({ question: q, layer, raw: slice(out[o.raw!], 0), up: slice(out[o.up!], 0) });
+      }
+    }
+    if (guidedPass >= 0) {
+      const o = cp.plan.outputs.get(headKey(guidedPass, 'detail', pm.model.input.name))!;
+      const t = out[o.raw!];
+      for (const q of questions.filter((x) => x.kind === 'detail' || x.kind === 'guided-evidence')) {
+        const detail = slice(t, gradQs.length + detailFacts.indexOf(q.fact));
+        if (q.kind === 'detail') { results.push({ question: q, layer: pm.model.input.name, raw: detail, up: detail }); continue; }
+        // Guided Grad-CAM (Selvaraju et al.): detail ⊙ evidence upsampled to the input.
+        for (const layer of layers) {
+          const ev = evidenceUp.get(`${q.fact}|${layer}`)!;
+          const prod = new Float32Array(detail.data.length);
+          for (let i = 0; i < prod.length; i++) prod[i] = detail.data[i] * ev.data[i];
+          const g = { data: prod, width: detail.width, height: detail.height };
+          results.push({ question: q, layer, raw: g, up: g });
+        }
+      }
+    }
+  }
+  const mismatchQs = questions.filter((q) => q.kind === 'mismatch');
+  if (mismatchQs.length && layers.length) results.push(...(await mismatchMaps(engine, pm, input, mismatchQs, layers, opts)));
+  return results;
+}
+
+/**
+ * Expectancy-mismatch maps (DESIGN §4): μ from one seed, σ² from the column norms, which exact
+ * mode sweeps with all R one-hot seeds and probe mode estimates with K Rademacher seeds
+ * (Hutchinson-type estimator; E[vvᵀ] = I). Chunks of seeds accumulate in-graph sums of squares.
+ */
+async function mismatchMaps(engine: Engine, pm: PreparedModel, input: Float32Array, qs: Question[], layers: string[], opts: ExplainOptions): Promise<MapResult[]> {
+  const R = pm.scores.numClasses;
+  const estimate = opts.estimate ?? { mode: 'exact' };
+  const cp = await engine.compile(pm, { passes: [{ relu: 'standard', layers, heads: ['mismatch'] }] });
+  const total = estimate.mode === 'exact' ? R : estimate.k;
+  const chunk = Math.max(1, Math.min(total, seedChunkSize(pm, layers, opts.budgetBytes) - 2));
+  const rand = estimate.mode === 'probe' ? mulberry32(estimate.seed ?? DEFAULT_PROBE_SEED) : undefined;
+  const acc = new Map<string, Float32Array>();
+  for (const l of layers) {
+    const info = pm.layers.find((x) => x.id === l)!;
+    const size = (info.kind === 'spatial' ? info.shape[0] : info.shape[1]) * info.grid[0] * info.grid[1];
+    acc.set(l, new Float32Array(size));
+  }
+  let last: Record<string, { data: unknown; dims: readonly number[] }> = {};
+  for (let done = 0; done < total;) {
+    if (opts.signal?.aborted) throw new UserError('cancelled');
+    const n = Math.min(chunk, total - done);
+    const base = new Float32Array((n + 2) * R);
+    const coef = new Float32Array(n + 2);
+    base.fill(-1 / R, 0, R); coef[0] = 1; // μ seed: p − 1/R
+    base.fill(1 / R, R, 2 * R); // Jᵀ1/R
+    for (let i = 0; i < n; i++) {
+      const row = (i + 2) * R;
+      if (rand) for (let r = 0; r < R; r++) base[row + r] = rand() < 0.5 ? -1 : 1;
+      else base[row + done + i] = 1;
+    }
+    done += n;
+    const extra: Record<string, ReturnType<typeof floatTensor>> = {};
+    for (const l of layers) {
+      const info = pm.layers.find((x) => x.id === l)!;
+      const dims = info.kind === 'spatial' ? [1, ...info.shape] : [1, info.shape[1], ...info.grid];
+      extra[cp.plan.accInputs.get(l)!] = floatTensor(acc.get(l)!, dims);
+    }
+    // Weight of the accumulated sum: exact → R/seen (1 when complete); probe → 1/seen.
+    extra[cp.plan.accScale!] = floatTensor(Float32Array.of(estimate.mode === 'exact' ? R / done : 1 / done), []);
+    const fetch = layers.flatMap((l) => { const o = cp.plan.outputs.get(headKey(0, 'mismatch', l))!; return [o.acc!, o.raw!, o.up!, o.raw2!, o.up2!]; });
+    last = await engine.run(pm, cp, input, { base, coef, k: n + 2 }, fetch, extra);
+    for (const l of layers) acc.set(l, Float32Array.from(last[cp.plan.outputs.get(headKey(0, 'mismatch', l))!.acc!].data as Float32Array));
+    opts.onProgress?.(done, total);
+  }
+  const out: MapResult[] = [];
+  for (const q of qs) for (const l of layers) {
+    const o = cp.plan.outputs.get(headKey(0, 'mismatch', l))!;
+    const gradient = (q.mismatch ?? 'weighted') === 'gradient';
+    const note = gradient && onlyPoolingAndLinearToScores(pm, l)
+      ? 'flat at this layer: its paths to the scores are only pooling and linear ops, so the gradient statistics do not vary over space'
+      : undefined;
+    out.push({
+      question: q, layer: l,
+      raw: slice(last[gradient ? o.raw2! : o.raw!], 0), up: slice(last[gradient ? o.up2! : o.up!], 0),
+      estimate: { ...estimate, seeds: total } as MapResult['estimate'], note,
+    });
+  }
+  return out;
+}
+
+const POOL_OR_LINEAR = new Set(['GlobalAveragePool', 'AveragePool', 'ReduceMean', 'ReduceSum', 'Flatten', 'Reshape', 'Squeeze', 'Unsqueeze', 'Gemm', 'MatMul', 'Add', 'Identity', 'Dropout', 'Transpose', 'BatchNormalization', 'Mul', 'Sub', 'Div']);
+
+/** DESIGN §4: the `gradient` variant is spatially constant where every op to the scores is pooling or linear. */
+export function onlyPoolingAndLinearToScores(pm: PreparedModel, layer: string): boolean {
+  const a = pm.analysis;
+  const seen = new Set([layer]);
+  for (const n of a.graph.order) {
+    if (!n.inputs.some((i) => seen.has(i))) continue;
+    if (!POOL_OR_LINEAR.has(n.opType)) return false;
+    // Mul/Div/Add/Sub are linear only with image-independent second operands.
+    if (['Mul', 'Div', 'Add', 'Sub'].includes(n.opType) && n.inputs.filter((i) => a.differentiable(i)).length > 1) return false;
+    for (const o of n.outputs) if (o && a.differentiable(o)) seen.add(o);
+  }
+  return true;
+}
