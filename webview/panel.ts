@@ -61,6 +61,7 @@ export class Panel {
   private readonly question = h('h1', { class: 'ff-question-text' });
   private readonly questionDetail = h('p', { class: 'ff-question-detail' });
   private readonly estimateBadge = h('span', { class: 'ff-estimate' });
+  private readonly where = h('span', { class: 'ff-where' });
   private readonly kindButtons = new Map<MapKind, HTMLButtonElement>();
   private readonly variantSelect: HTMLSelectElement;
   private readonly variantField: HTMLElement;
@@ -137,7 +138,7 @@ export class Panel {
     ]);
     this.root = h('main', { class: 'ff-panel', attrs: { 'data-state': 'waiting' } }, [
       head,
-      h('section', { class: 'ff-question', attrs: { 'aria-live': 'polite' } }, [this.question, h('div', { class: 'ff-question-sub' }, [this.questionDetail, this.estimateBadge])]),
+      h('section', { class: 'ff-question', attrs: { 'aria-live': 'polite' } }, [this.question, h('div', { class: 'ff-question-sub' }, [this.questionDetail, this.where, this.estimateBadge])]),
       this.status.root,
       h('div', { class: 'ff-controls' }, [kindBar, h('div', { class: 'ff-pickers' }, [this.factPicker.root, this.foilPicker.root, this.variantField])]),
       h('section', { class: 'ff-view', attrs: { 'aria-label': 'Map' } }, [this.viewer.root, this.note, display]),
@@ -517,6 +518,7 @@ export class Panel {
     this.colormapSelect.value = this.prefs.colormap;
     this.rangeSelect.value = this.prefs.rangeMode;
 
+    this.where.textContent = map ? `at ${map.data.layerShort}, ${map.data.rawWidth}×${map.data.rawHeight}${this.showMap ? '' : ' · map hidden (M)'}` : '';
     const est = map?.data.estimate;
     this.estimateBadge.hidden = !est;
     this.estimateBadge.dataset.mode = est?.mode ?? '';

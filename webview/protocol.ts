@@ -139,6 +139,7 @@ export interface InitMessage {
   prediction: Prediction[];
   /** Index of the label the user says is right. */
   expected?: number;
+  /** Every explainable layer in graph order, shallow to deep (the depth strip keeps this order). */
   layers: LayerInfo[];
   settings: ModelSettings;
   defaults?: PanelDefaults;
@@ -174,7 +175,10 @@ export interface RequestMapsMessage {
   variant?: MapVariant;
   fact: number;
   foil?: number;
-  /** Layer tensor ids; the host answers all of them from one engine run. */
+  /**
+   * Layer tensor ids; the host answers all of them from one engine run. For `detail` (input
+   * resolution) the host may answer one map whose layer is the input tensor.
+   */
   layers: string[];
   estimate?: EstimateChoice;
 }

@@ -99,6 +99,7 @@ describe('panel in headless Chromium', function () {
     const shown = host.sentMaps.get((await shownMapId(page))!);
     assert.equal(shown?.layer, STAGES[0].id, 'the main view shows the map the host sent for that layer');
     assert.equal(host.ofType('requestMaps').length, requestsBefore, 'stepping layers sends no request');
+    assert.equal(await text(page, '.ff-where'), 'at stem, 24×24');
 
     // Foils in rank order, skipping the fact: bearing → hex-nut → gear; back is cached.
     await page.keyboard.press('ArrowRight');
@@ -118,6 +119,12 @@ describe('panel in headless Chromium', function () {
     await page.keyboard.press('Shift+ArrowRight');
     const r3 = await host.waitFor('requestMaps', requestsBefore + 3);
     assert.deepEqual([LABELS[r3.fact], LABELS[r3.foil!]], ['bearing', 'washer']);
+
+    // "all layers" asks only for the layers not asked yet (the stages are already answered).
+    await page.locator('.ff-depth .ff-check input').check();
+    const r4 = await host.waitFor('requestMaps', requestsBefore + 4);
+    assert.deepEqual(r4.layers, ['/block1/conv1/Conv_output_0']);
+    await page.waitForFunction(() => document.querySelectorAll('.ff-depth-item:not(.is-pending)').length === 5);
     assertClean(p);
     await p.close();
   });

@@ -61,7 +61,8 @@ export async function initMessage(): Promise<InitMessage> {
     labels: LABELS,
     prediction: PREDICTION,
     expected: idx('bearing'),
-    layers: [...STAGES.map((s) => ({ id: s.id, short: s.short, gridWidth: s.grid, gridHeight: s.grid, stage: true })), ...EXTRA_LAYERS],
+    // graph order, shallow to deep: the extra layer sits inside block1
+    layers: [...STAGES.map((s) => ({ id: s.id, short: s.short, gridWidth: s.grid, gridHeight: s.grid, stage: true }))].flatMap((l, i) => (i === 1 ? [...EXTRA_LAYERS, l] : [l])),
     settings: { preprocessing: { width: MODEL, height: MODEL, resize: 'letterbox', channels: 'RGB', layout: 'NCHW', scale: 1 / 255, mean: [0.5, 0.5, 0.5], std: [0.25, 0.25, 0.25] }, labelsFile: 'parts.labels.txt' },
   };
 }
