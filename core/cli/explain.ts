@@ -1,0 +1,130 @@
+/** `factfoil explain`: maps for one or more images, saved beside each image with their records. */
+import { readdirSync, statSync } from 'node:fs';
+import * as path from 'node:path';
+import { Engine } from '../engine/engine';
+import { UserError } from '../errors';
+import { explainMaps, MapKind, MAP_KINDS, Question, Estimate, MapResult } from '../methods/maps';
+import { openModel, imageInput, tensorInput, softmax, ranked, ModelContext, ModelInput } from './context';
+import { resolveClass, expectedLabelFromPath } from '../io/labels';
+import { mapFileStem, layerShortName, writeUniqueFiles } from '../io/naming';
+import { encodeNpy } from '../io/npy';
+import { encodeRecord, FactfoilRecord, RECORD_FORMAT } from '../io/record';
+import { displayRange, DEFAULT_DISPLAY_RANGE } from '../image/normalize';
+import { renderOverlayPng, renderMapPng } from '../image/overlay';
+import type { CliArgs } from './main';
+import { resolveLayer } from './main';
+
+export const TOOL_VERSION = '0.1.0';
+const IMAGE_EXT = /\.(png|jpe?g|webp|tiff?|gif|avif)$/i;
+
+function expandImages(items: string[]): string[] {
+  const out: string[] = [];
+  for (const item of items) {
+    let st;
+    try { st = statSync(item); } catch { throw new UserError(`cannot read image ${item}`, 'check the path'); }
+    if (st.isDirectory()) {
+      for (const e of readdirSync(item).sort()) {
+        const p = path.join(item, e);
+        if (statSync(p).isDirectory()) out.push(...expandImages([p]));
+        else if (IMAGE_EXT.test(e) && !/\.(evidence|contrast|mismatch|expectancy|detail|guided-evidence)\./.test(e)) out.push(p);
+      }
+    } else out.push(item);
+  }
+  return out;
+}
+
+function parseEstimate(arg: string | undefined): Estimate {
+  if (!arg || arg === 'exact') return { mode: 'exact' };
+  const m = /^probe:(\d+)$/.exec(arg);
+  if (!m || Number(m[1]) < 1) throw new UserError(`--estimate must be exact or probe:<K>, not '${arg}'`);
+  return { mode: 'probe', k: Number(m[1]), seed: 1 };
+}
+
+export async function explainCommand(engine: Engine, args: CliArgs): Promise<number> {
+  const v = args.values;
+  const ctx = await openModel(engine, v.model, v.labels);
+  const kinds = (v.map ?? 'contrast').split(',') as MapKind[];
+  for (const k of kinds) if (!MAP_KINDS.includes(k)) throw new UserError(`unknown map kind '${k}'`, `choose from ${MAP_KINDS.join(', ')}`);
+  const contrast = (v.contrast ?? 'margin') as 'margin' | 'loss';
+  const mismatch = (v.mismatch ?? 'weighted') as 'weighted' | 'gradient';
+  if (!['margin', 'loss'].includes(contrast)) throw new UserError(`--contrast must be margin or loss`);
+  if (!['weighted', 'gradient'].includes(mismatch)) throw new UserError(`--mismatch must be weighted or gradient`);
+  const layers = resolveLayer(ctx.pm, v.layer ?? 'stages');
+  const estimate = parseEstimate(v.estimate);
+  const files = v.input ? [v.input] : expandImages(args.positionals);
+  if (!files.length) throw new UserError('missing <image>', 'pass one or more images or folders');
+  const abort = new AbortController();
+  const onInt = () => abort.abort();
+  process.once('SIGINT', onInt);
+  const outputs: unknown[] = [];
+  let prediction: unknown;
+  try {
+    for (const file of files) {
+      const input = v.input ? await tensorInput(ctx, file) : await imageInput(ctx, file);
+      const p = softmax(await engine.scores(ctx.pm, input.data));
+      const top = ranked(p, ctx.labels, Math.min(5, p.length));
+      prediction = top;
+      const fact = v.fact !== undefined ? resolveClass(v.fact, ctx.labels, 'fact') : top[0].index;
+      const expected = input.image ? expectedLabelFromPath(file, ctx.labels) : undefined;
+      const foil = v.foil !== undefined ? resolveClass(v.foil, ctx.labels, 'foil')
+        : expected !== undefined && expected !== fact ? expected : top.find((t) => t.index !== fact)!.index;
+      const questions: Question[] = kinds.map((kind) => ({ kind, fact, foil: kind === 'contrast' ? foil : undefined, contrast, mismatch }));
+      const tty = process.stderr.isTTY;
+      const started = Date.now();
+      const maps = await explainMaps(engine, ctx.pm, input.data, questions, layers, {
+        estimate, signal: abort.signal,
+        onProgress: tty ? (done, total) => {
+          const eta = ((Date.now() - started) / done) * (total - done) / 1000;
+          process.stderr.write(`\r  seeds ${done}/${total}  ETA ${eta.toFixed(1)} s   `);
+          if (done === total) process.stderr.write('\n');
+        } : undefined,
+      });
+      for (const m of maps) outputs.push(await saveMap(ctx, input, m, top, v.out, v.raw ?? false));
+      process.stderr.write(`${file}: ${ctx.labels[fact]} (${(100 * p[fact]).toFixed(1)}%), ${maps.length} maps\n`);
+    }
+  } catch (e) {
+    if (abort.signal.aborted) throw new UserError('stopped by Ctrl-C; nothing half-written');
+    throw e;
+  } finally {
+    process.off('SIGINT', onInt);
+  }
+  if (v.json) process.stdout.write(JSON.stringify({ outputs, prediction }) + '\n');
+  return 0;
+}
+
+async function saveMap(ctx: ModelContext, input: ModelInput, m: MapResult, top: { index: number; label: string; p: number }[], outDir: string | undefined, raw: boolean) {
+  const q = m.question;
+  const dir = outDir ? path.resolve(outDir) : path.dirname(input.path);
+  const layerShort = m.layer === ctx.pm.model.input.name ? 'input' : layerShortName(m.layer);
+  const stem = mapFileStem({ imagePath: input.path, map: q.kind, layerShort, fact: ctx.labels[q.fact], foil: q.foil !== undefined ? ctx.labels[q.foil] : undefined });
+  const range = displayRange(m.up.data, DEFAULT_DISPLAY_RANGE);
+  const png = input.image && input.geometry
+    ? await renderOverlayPng(input.image, m.up, input.geometry, { colormap: 'viridis', opacity: 0.6, range })
+    : await renderMapPng(m.up, range, 'viridis');
+  const exts = raw ? ['.png', '.json', '.npy'] : ['.png', '.json'];
+  const layerInfo = ctx.pm.layers.find((l) => l.id === m.layer);
+  const chosen = await writeUniqueFiles(dir, stem, exts, (c) => {
+    const record: FactfoilRecord = {
+      format: RECORD_FORMAT, toolVersion: TOOL_VERSION, createdAt: new Date().toISOString(),
+      model: { path: path.resolve(ctx.pm.model.path), sha256: ctx.pm.model.sha256, scoresTensor: ctx.pm.scores.tensor, scoresFrom: ctx.pm.scores.source },
+      input: input.image
+        ? { kind: 'image', path: input.path, sha256: input.sha256, width: input.image.width, height: input.image.height }
+        : { kind: 'tensor', path: input.path, sha256: input.sha256, shape: ctx.pm.inputDims },
+      preprocess: input.geometry ? { spec: ctx.spec, geometry: input.geometry } : null,
+      map: { kind: q.kind, variant: q.kind === 'contrast' ? q.contrast ?? 'margin' : q.kind === 'mismatch' ? q.mismatch ?? 'weighted' : null, layer: { id: m.layer, shape: layerInfo?.shape ?? ctx.pm.inputDims.slice(1) } },
+      fact: { index: q.fact, label: ctx.labels[q.fact] },
+      foil: q.foil !== undefined ? { index: q.foil, label: ctx.labels[q.foil] } : null,
+      estimate: m.estimate ? (m.estimate.mode === 'exact' ? { mode: 'exact' } : { mode: 'probe', k: m.estimate.k, seed: m.estimate.seed }) : null,
+      normalization: { kind: 'percentile', p: 99.5, lo: range.lo, hi: range.hi, colormap: 'viridis', opacity: 0.6 },
+      prediction: top,
+      files: { png: path.basename(c.paths[0]), ...(raw ? { raw: path.basename(c.paths[2]) } : {}) },
+    };
+    const contents: (Uint8Array | string)[] = [png, encodeRecord(record)];
+    if (raw) contents.push(encodeNpy(m.raw.data, [m.raw.height, m.raw.width]));
+    return contents;
+  });
+  return {
+    layer: m.layer, map: q.kind, fact: ctx.labels[q.fact], foil: q.foil !== undefined ? ctx.labels[q.foil] : null,
+    png: chosen.paths[0], record: chosen.paths[1], raw: raw ? chosen.paths[2] : null, ...(m.note ? { note: m.note } : {}),
+  };
+}

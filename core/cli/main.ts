@@ -1,0 +1,121 @@
+/** The `factfoil` command (DESIGN §5). Exit 0 success, 2 user error (one line on stderr), 1 bug. */
+import { parseArgs } from 'node:util';
+import * as path from 'node:path';
+import { writeFile } from 'node:fs/promises';
+import { Engine } from '../engine/engine';
+import { UserError, isUserError } from '../errors';
+import { openModel, imageInput, tensorInput, softmax, ranked } from './context';
+import { gradientsAt, lossSeed } from '../methods/gradient';
+import { resolveClass } from '../io/labels';
+import { encodeNpy } from '../io/npy';
+import { writeFileAtomic } from '../io/atomic';
+import { explainCommand } from './explain';
+
+const USAGE = `usage:
+  factfoil layers  <model.onnx> [--json]
+  factfoil predict <image> --model <m.onnx> [--labels <file>] [--top <n>] [--json]
+  factfoil explain <image>... --model <m.onnx> [--map <kind>] [--fact <c>] [--foil <c>] [--contrast margin|loss]
+                   [--mismatch weighted|gradient] [--layer <tensor|index|last|stages|all>] [--estimate exact|probe:<K>]
+                   [--input <x.npy>] [--out <dir>] [--raw] [--json]
+  factfoil grad    --model <m.onnx> (--input <x.npy> | <image>) --layer <tensor> --target <class> [--loss logit|ce] --out <g.npy>`;
+
+const OPTIONS = {
+  model: { type: 'string' }, labels: { type: 'string' }, top: { type: 'string' }, json: { type: 'boolean' },
+  map: { type: 'string' }, fact: { type: 'string' }, foil: { type: 'string' }, contrast: { type: 'string' },
+  mismatch: { type: 'string' }, layer: { type: 'string' }, estimate: { type: 'string' }, input: { type: 'string' },
+  out: { type: 'string' }, raw: { type: 'boolean' }, target: { type: 'string' }, loss: { type: 'string' }, help: { type: 'boolean', short: 'h' },
+} as const;
+
+export type CliArgs = ReturnType<typeof parse>;
+
+function parse(argv: string[]) {
+  try {
+    return parseArgs({ args: argv, options: OPTIONS, allowPositionals: true, strict: true });
+  } catch (e) {
+    throw new UserError(`${(e as Error).message.split('\n')[0]}`, 'run `factfoil --help`');
+  }
+}
+
+export async function main(argv: string[]): Promise<number> {
+  const engine = new Engine();
+  try {
+    const [command, ...rest] = argv;
+    if (!command || command === '--help' || command === '-h') { process.stderr.write(USAGE + '\n'); return command ? 0 : 2; }
+    const args = parse(rest);
+    if (command === 'layers') return await layersCommand(engine, args);
+    if (command === 'predict') return await predictCommand(engine, args);
+    if (command === 'explain') return await explainCommand(engine, args);
+    if (command === 'grad') return await gradCommand(engine, args);
+    throw new UserError(`unknown command '${command}'`, 'commands: layers, predict, explain, grad');
+  } catch (e) {
+    if (isUserError(e)) { process.stderr.write(`factfoil: ${e.oneLine()}\n`); return 2; }
+    process.stderr.write(`factfoil: internal error: ${(e as Error).stack ?? e}\n`);
+    return 1;
+  } finally {
+    await engine.dispose();
+  }
+}
+
+async function layersCommand(engine: Engine, args: CliArgs): Promise<number> {
+  const ctx = await openModel(engine, args.positionals[0] ?? args.values.model, args.values.labels);
+  const layers = ctx.pm.layers.map((l, index) => ({
+    index, id: l.id, shape: l.shape, kind: l.kind, grid: l.grid, stage: l.isStage,
+    explainable: !l.blockedBy, ...(l.blockedBy ? { blockedBy: l.blockedBy } : {}),
+  }));
+  if (args.values.json) {
+    process.stdout.write(JSON.stringify({ model: ctx.pm.model.path, input: { name: ctx.pm.model.input.name, dims: ctx.pm.inputDims }, scores: ctx.pm.scores, classes: ctx.labels, layers }, null, 2) + '\n');
+  } else {
+    process.stdout.write(`scores: ${ctx.pm.scores.tensor} (${ctx.pm.scores.source}), ${ctx.pm.scores.numClasses} classes\n`);
+    for (const l of layers) {
+      const why = l.blockedBy ? `  not explainable: ${l.blockedBy.opType} '${l.blockedBy.node}' has no gradient rule` : '';
+      process.stdout.write(`${String(l.index).padStart(3)}  ${l.stage ? 'stage' : '     '}  [${l.shape.join(',')}]  ${l.id}${why}\n`);
+    }
+  }
+  return 0;
+}
+
+async function predictCommand(engine: Engine, args: CliArgs): Promise<number> {
+  const ctx = await openModel(engine, args.values.model, args.values.labels);
+  const file = args.positionals[0];
+  if (!file && !args.values.input) throw new UserError('missing <image>');
+  const input = args.values.input ? await tensorInput(ctx, args.values.input) : await imageInput(ctx, file);
+  const p = softmax(await engine.scores(ctx.pm, input.data));
+  const top = ranked(p, ctx.labels, Number(args.values.top ?? 5));
+  if (args.values.json) process.stdout.write(JSON.stringify({ image: input.path, prediction: top }) + '\n');
+  else for (const t of top) process.stdout.write(`${(100 * t.p).toFixed(1).padStart(5)}%  ${t.label}\n`);
+  return 0;
+}
+
+async function gradCommand(engine: Engine, args: CliArgs): Promise<number> {
+  const ctx = await openModel(engine, args.values.model, args.values.labels);
+  const { layer, target, out } = args.values;
+  if (!layer || target === undefined || !out) throw new UserError('grad needs --layer, --target and --out');
+  const loss = (args.values.loss ?? 'logit') as 'logit' | 'ce';
+  if (loss !== 'logit' && loss !== 'ce') throw new UserError(`--loss must be logit or ce, not '${loss}'`);
+  const input = args.values.input ? await tensorInput(ctx, args.values.input) : args.positionals[0] ? await imageInput(ctx, args.positionals[0]) : undefined;
+  if (!input) throw new UserError('grad needs --input <x.npy> or an image');
+  const id = resolveLayer(ctx.pm, layer, true)[0];
+  const t = resolveClass(target, ctx.labels, 'target');
+  const g = (await gradientsAt(engine, ctx.pm, input.data, [id], lossSeed(ctx.pm.scores.numClasses, t, loss))).get(id)!;
+  // Drop the seed and batch axes: [K=1, 1, ...shape] → shape.
+  const shape = g.dims.slice(2);
+  await writeFileAtomic(path.resolve(out), encodeNpy(g.data, shape));
+  process.stderr.write(`wrote ${out} [${shape.join(',')}]\n`);
+  return 0;
+}
+
+/** --layer tensor|index|last|stages|all → layer ids. */
+export function resolveLayer(pm: import('../plan/prepared').PreparedModel, arg: string, allowInput = false): string[] {
+  const explainable = pm.layers.filter((l) => !l.blockedBy);
+  if (arg === 'all') return explainable.map((l) => l.id);
+  if (arg === 'stages') return explainable.filter((l) => l.isStage).map((l) => l.id);
+  if (arg === 'last') return explainable.slice(-1).map((l) => l.id);
+  if (allowInput && arg === pm.model.input.name) return [arg];
+  if (/^\d+$/.test(arg) && pm.layers[Number(arg)]) return [pm.layers[Number(arg)].id];
+  if (pm.layers.some((l) => l.id === arg)) return [arg];
+  throw new UserError(`unknown layer '${arg}' in ${pm.model.path}`, 'run `factfoil layers <model>` to list them');
+}
+
+if (require.main === module) {
+  main(process.argv.slice(2)).then((code) => { process.exitCode = code; });
+}

@@ -1,0 +1,52 @@
+/** The `factfoil` command as CI calls it: a subprocess of dist/cli.js. */
+import { strict as assert } from 'node:assert';
+import { execFileSync, spawnSync } from 'node:child_process';
+import { mkdtempSync, cpSync, existsSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import * as path from 'node:path';
+import { readNpy } from '../../../core/io/npy';
+import { FIXTURES, relL2, toNumbers } from '../../helpers';
+
+const ROOT = path.resolve(__dirname, '../../..');
+const CLI = path.join(ROOT, 'dist/cli.js');
+const run = (args: string[]) => spawnSync(process.execPath, [CLI, ...args], { encoding: 'utf8' });
+
+describe('factfoil CLI', () => {
+  before(() => execFileSync(process.execPath, [path.join(ROOT, 'scripts/build.mjs')], { cwd: ROOT }));
+
+  it('layers --json lists the four residual stages of the resnet fixture as stages', () => {
+    const r = run(['layers', path.join(FIXTURES, 'arch/resnet/model.onnx'), '--json']);
+    assert.equal(r.status, 0, r.stderr);
+    const stages = JSON.parse(r.stdout).layers.filter((l: { stage: boolean }) => l.stage).map((l: { id: string }) => l.id);
+    for (const s of ['stage1', 'stage2', 'stage3', 'stage4']) assert.ok(stages.includes(s), stages.join(','));
+  });
+
+  it('grad matches the PyTorch float64 reference (test-fixtures/arch/resnet, rel L2 ≤ 1e-4)', async () => {
+    const out = path.join(mkdtempSync(path.join(tmpdir(), 'ff-')), 'g.npy');
+    const r = run(['grad', '--model', path.join(FIXTURES, 'arch/resnet/model.onnx'), '--input', path.join(FIXTURES, 'arch/resnet/input.npy'), '--layer', 'stage2', '--target', '5', '--out', out]);
+    assert.equal(r.status, 0, r.stderr);
+    const g = await readNpy(out);
+    const ref = await readNpy(path.join(FIXTURES, 'arch/resnet/grad_stage2_logit_5.npy'));
+    assert.deepEqual(g.shape, ref.shape);
+    assert.ok(relL2(toNumbers(g.data), toNumbers(ref.data)) < 1e-4);
+  });
+
+  it('explain saves PNG + record beside the image and never overwrites', () => {
+    const dir = mkdtempSync(path.join(tmpdir(), 'ff-'));
+    cpSync(path.join(FIXTURES, 'parts/demo/bearing'), path.join(dir, 'bearing'), { recursive: true });
+    const args = ['explain', path.join(dir, 'bearing'), '--model', path.join(FIXTURES, 'parts/parts-sorter.onnx'), '--layer', 'last', '--json'];
+    const first = JSON.parse(run(args).stdout), second = JSON.parse(run(args).stdout);
+    assert.ok(existsSync(first.outputs[0].png) && existsSync(first.outputs[0].record));
+    assert.notEqual(first.outputs[0].png, second.outputs[0].png);
+    assert.match(second.outputs[0].png, /-2\.png$/);
+  });
+
+  it('user errors exit 2 with one line and no stack trace', () => {
+    for (const args of [['explain', 'no-such.png', '--model', path.join(FIXTURES, 'parts/parts-sorter.onnx')], ['layers', 'nothing.onnx'], ['grad', '--model', path.join(FIXTURES, 'arch/resnet/model.onnx'), '--input', path.join(FIXTURES, 'arch/resnet/input.npy'), '--layer', 'nope', '--target', '1', '--out', '/tmp/x.npy'], ['frobnicate']]) {
+      const r = run(args);
+      assert.equal(r.status, 2, `${args.join(' ')}: ${r.stderr}`);
+      assert.equal(r.stderr.trim().split('\n').length, 1, r.stderr);
+      assert.doesNotMatch(r.stderr, /\n\s+at /);
+    }
+  });
+});
