@@ -203,14 +203,14 @@ function looksRaster(head: Buffer): boolean {
 function decodeError(file: string, e: unknown): UserError {
   if (e instanceof UserError) return e;
   const raw = e instanceof Error ? e.message : String(e);
-  const msg = raw.split('\n')[0].trim();
+  const msg = raw.split('\n')[0].split(file + ': ').join('').replace(/^Input file has corrupt header: /, 'corrupt header: ').trim();
   if (/unsupported image format/i.test(msg)) {
-    return new UserError(`cannot use ${file}: not a recognised image`, `give a ${SUPPORTED_FORMATS} file`);
+    return new UserError(`cannot use ${file}: not a recognised image, or a damaged one`, `give a ${SUPPORTED_FORMATS} file`);
   }
   if (/exceeds pixel limit/i.test(msg)) {
     return new UserError(`cannot use ${file}: the image is over the pixel limit`, 'scale the image down first, or raise the pixel limit');
   }
-  if (/premature end|truncat|unexpected end|end of (file|stream|input)|not enough data|read error|short read/i.test(raw)) {
+  if (/premature end|truncat|unexpected end|end of (file|stream|input)|not enough data|read error|short read|corrupt header|bad seek|unable to parse/i.test(raw)) {
     return new UserError(`cannot decode ${file}: the file is truncated or damaged (${msg})`, 'export or copy the image again');
   }
   return new UserError(`cannot decode ${file}: ${msg}`, 'check that the file is a valid image');

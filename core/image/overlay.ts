@@ -40,17 +40,32 @@ interface AxisTaps {
  * Bilinear taps along one axis, ONNX Resize `linear` with `half_pixel` coordinates (DESIGN §4):
  * the centre of original pixel X, X + 0.5, goes through the geometry to model-input coordinate u,
  * then to map coordinate m = u · mapSize / inputSize − 0.5, and is interpolated between
- * floor(m) and floor(m) + 1, clamped to the map's edge.
+ * floor(m) and floor(m) + 1. m is clamped to the map cells whose centres lie inside the image
+ * content (`contentLo`..`contentHi` in input coordinates): for stretch and crop that is ONNX's
+ * edge clamp; for letterbox it keeps pure-padding cells from bleeding into the image border.
  */
-function axisTaps(origSize: number, toInput: (x: number) => number, inputSize: number, mapSize: number, srcLo: number, srcHi: number): AxisTaps {
+function axisTaps(
+  origSize: number,
+  toInput: (x: number) => number,
+  inputSize: number,
+  mapSize: number,
+  srcLo: number,
+  srcHi: number,
+  contentLo: number,
+  contentHi: number,
+): AxisTaps {
   const i0 = new Int32Array(origSize);
   const i1 = new Int32Array(origSize);
   const w1 = new Float32Array(origSize);
   const inside = new Uint8Array(origSize);
+  const k = mapSize / inputSize;
+  let mLo = Math.max(0, Math.ceil(contentLo * k - 0.5));
+  let mHi = Math.min(mapSize - 1, Math.floor(contentHi * k - 0.5));
+  if (mLo > mHi) mLo = mHi = Math.min(mapSize - 1, Math.max(0, Math.floor(((contentLo + contentHi) / 2) * k)));
   for (let x = 0; x < origSize; x++) {
     const c = x + 0.5;
     inside[x] = c >= srcLo && c < srcHi ? 1 : 0;
-    const m = (toInput(c) * mapSize) / inputSize - 0.5;
+    const m = Math.min(mHi, Math.max(mLo, toInput(c) * k - 0.5));
     const f = Math.floor(m);
     const frac = m - f;
     i0[x] = Math.min(mapSize - 1, Math.max(0, f));
@@ -61,8 +76,9 @@ function axisTaps(origSize: number, toInput: (x: number) => number, inputSize: n
 }
 
 function tapsForGeometry(map: MapGrid, g: Geometry): { xs: AxisTaps; ys: AxisTaps } {
-  const xs = axisTaps(g.original.width, (x) => originalToInput(g, x, 0)[0], g.input.width, map.width, g.source.x, g.source.x + g.source.width);
-  const ys = axisTaps(g.original.height, (y) => originalToInput(g, 0, y)[1], g.input.height, map.height, g.source.y, g.source.y + g.source.height);
+  const { source: s, target: t } = g;
+  const xs = axisTaps(g.original.width, (x) => originalToInput(g, x, 0)[0], g.input.width, map.width, s.x, s.x + s.width, t.x, t.x + t.width);
+  const ys = axisTaps(g.original.height, (y) => originalToInput(g, 0, y)[1], g.input.height, map.height, s.y, s.y + s.height, t.y, t.y + t.height);
   return { xs, ys };
 }
 
