@@ -1,0 +1,173 @@
+/**
+ * Our side of the benchmark: the same questions as peer.py, answered by the engine on the ONNX
+ * export of the same ResNet-18, with onnxruntime-node at 2 intra-op threads.
+ *
+ * Usage: npx tsx test/bench/ours.ts <cache dir> <group> <repeats>
+ * Groups: main (everything timed), rss-exact (one exact sweep, for peak RSS), rss-base (prepare
+ * and one forward only: the floor the sweep's RSS sits on). Prints one JSON object on stdout.
+ */
+import * as path from 'node:path';
+import * as ort from 'onnxruntime-node';
+import { Engine } from '../../core/engine/engine';
+import { explainMaps, MapResult, Question } from '../../core/methods/maps';
+import { seedChunkSize } from '../../core/engine/budget';
+import { loadModel } from '../../core/model/load';
+import { PreparedModel } from '../../core/plan/prepared';
+import { readNpy } from '../../core/io/npy';
+import { pearson } from '../../core/metrics/correlation';
+import { computeGeometry } from '../../core/image/preprocess';
+import { displayRange } from '../../core/image/normalize';
+import { renderOverlayPng } from '../../core/image/overlay';
+import type { DecodedImage } from '../../core/image/decode';
+import { mulberry32 } from '../../core/metrics/random';
+
+const THREADS = 2;
+const STAGES = ['stage1', 'stage2', 'stage3', 'stage4'];
+const LAYER = 'stage2';
+const PROBE_KS = [8, 16, 32, 64, 128];
+/** Probe seeds averaged per K on the error curve (the spread shows the estimator's variance). */
+const PROBE_SEEDS = [1, 2, 3];
+
+async function timed<T>(repeats: number, fn: () => Promise<T>): Promise<{ times: number[]; out: T }> {
+  const times: number[] = [];
+  let out!: T;
+  for (let i = 0; i < repeats; i++) {
+    const t = performance.now();
+    out = await fn();
+    times.push(performance.now() - t);
+  }
+  return { times, out };
+}
+
+function topTwo(z: Float32Array): [number, number] {
+  let a = 0, b = -1;
+  for (let i = 1; i < z.length; i++) {
+    if (z[i] > z[a]) { b = a; a = i; } else if (b < 0 || z[i] > z[b]) b = i;
+  }
+  return [a, b];
+}
+
+function relL2(a: ArrayLike<number>, b: ArrayLike<number>): number {
+  let num = 0, den = 0;
+  for (let i = 0; i < a.length; i++) { num += (a[i] - b[i]) ** 2; den += b[i] ** 2; }
+  return Math.sqrt(num / den);
+}
+
+async function setup(cache: string): Promise<{ engine: Engine; pm: PreparedModel; x: Float32Array }> {
+  const engine = new Engine({ threads: THREADS });
+  const pm = await engine.prepare(loadModel(path.join(cache, 'resnet18.onnx')), [1, 3, 224, 224]);
+  const x = (await readNpy(path.join(cache, 'input.npy'))).data as Float32Array;
+  return { engine, pm, x };
+}
+
+const exactQ: Question[] = [{ kind: 'mismatch', fact: 0 }];
+const exact = (s: Awaited<ReturnType<typeof setup>>) => explainMaps(s.engine, s.pm, s.x, exactQ, [LAYER], { estimate: { mode: 'exact' } });
+const probe = (s: Awaited<ReturnType<typeof setup>>, k: number, seed: number) =>
+  explainMaps(s.engine, s.pm, s.x, exactQ, [LAYER], { estimate: { mode: 'probe', k, seed } });
+
+/** A seeded 640×480 "photo": the panel draws on the original image, centre-cropped to 224². */
+function syntheticPhoto(): DecodedImage {
+  const width = 640, height = 480, rand = mulberry32(7);
+  const rgb = new Uint8Array(width * height * 3);
+  for (let i = 0; i < rgb.length; i++) rgb[i] = (rand() * 256) | 0;
+  return { width, height, rgb, format: 'png', path: 'synthetic.png' };
+}
+
+async function matmulGflops(cache: string, n: number, repeats: number): Promise<{ times: number[]; gflops: number }> {
+  const s = await ort.InferenceSession.create(path.join(cache, 'matmul.onnx'), { intraOpNumThreads: THREADS, interOpNumThreads: 1, graphOptimizationLevel: 'all' });
+  const rand = mulberry32(3);
+  const a = new ort.Tensor('float32', Float32Array.from({ length: n * n }, () => rand() - 0.5), [n, n]);
+  const b = new ort.Tensor('float32', Float32Array.from({ length: n * n }, () => rand() - 0.5), [n, n]);
+  await s.run({ a, b });
+  const { times } = await timed(repeats, () => s.run({ a, b }));
+  const best = Math.min(...times);
+  await s.release();
+  return { times, gflops: (2 * n ** 3) / (best / 1e3) / 1e9 };
+}
+
+async function main(): Promise<void> {
+  const [cache, group, repeatsArg] = process.argv.slice(2);
+  const repeats = Number(repeatsArg ?? 5);
+  if (group === 'rss-base' || group === 'rss-exact') {
+    const s = await setup(cache);
+    await s.engine.scores(s.pm, s.x);
+    const t = performance.now();
+    if (group === 'rss-exact') await exact(s);
+    const ms = performance.now() - t;
+    console.log(JSON.stringify({ peak_rss_mib: process.resourceUsage().maxRSS / 1024, ms }));
+    await s.engine.dispose();
+    return;
+  }
+  const res: Record<string, unknown> = {};
+  const tPrep = performance.now();
+  const s = await setup(cache);
+  res.prepare_ms = performance.now() - tPrep;
+
+  // forward: the plan with no passes is the model itself plus unused seed inputs.
+  let t = performance.now();
+  let z = await s.engine.scores(s.pm, s.x);
+  res.forward_cold_ms = performance.now() - t;
+  res.forward = (await timed(repeats, () => s.engine.scores(s.pm, s.x))).times;
+
+  // first map at every stage from a new image: the prediction (for fact and foil), then one run.
+  const firstMap = async (): Promise<MapResult[]> => {
+    z = await s.engine.scores(s.pm, s.x);
+    const [fact, foil] = topTwo(z);
+    return explainMaps(s.engine, s.pm, s.x, [{ kind: 'contrast', fact, foil }], STAGES);
+  };
+  t = performance.now();
+  await firstMap();
+  res.first_map_cold_ms = performance.now() - t; // includes composing and compiling the plan
+  const fm = await timed(repeats, firstMap);
+  res.first_map_all_stages = fm.times;
+
+  // step_layer: maps are in hand; the next stage's overlay is display range + colour + PNG.
+  const img = syntheticPhoto();
+  const geom = computeGeometry(img.width, img.height, [224, 224], 'crop');
+  const steps: number[] = [];
+  let pngBytes = 0;
+  for (let r = 0; r < Math.max(3, repeats); r++) for (const m of fm.out) {
+    const t0 = performance.now();
+    const png = await renderOverlayPng(img, m.raw, geom, { colormap: 'viridis', opacity: 0.5, range: displayRange(m.raw.data) });
+    steps.push(performance.now() - t0);
+    pngBytes = png.length;
+  }
+  res.step_layer = steps;
+  res.step_layer_image = `${img.width}x${img.height} original, centre crop to 224x224, viridis, ${pngBytes} B PNG`;
+
+  // exact mismatch at stage2: warm the compiled plan with a small probe first.
+  t = performance.now();
+  await probe(s, 8, 1);
+  res.mismatch_compile_ms = performance.now() - t;
+  res.mismatch_chunk = seedChunkSize(s.pm, [LAYER]) - 2;
+  const ex = await timed(Math.max(1, Math.min(repeats, 3)), () => exact(s));
+  res.mismatch_exact_layer2 = ex.times;
+  const exactMap = ex.out[0].raw.data;
+  res.map = Array.from(exactMap);
+
+  const p32 = await timed(repeats, () => probe(s, 32, 1));
+  res.mismatch_probe32_layer2 = p32.times;
+  res.probe32_pearson_vs_exact = pearson(p32.out[0].raw.data, exactMap);
+  res.probe32_rel_l2_vs_exact = relL2(p32.out[0].raw.data, exactMap);
+
+  const curve: Record<string, unknown>[] = [];
+  for (const k of PROBE_KS) {
+    const ps: number[] = [], ls: number[] = [], ts: number[] = [];
+    for (const seed of PROBE_SEEDS) {
+      const t0 = performance.now();
+      const m = (await probe(s, k, seed))[0].raw.data;
+      ts.push(performance.now() - t0);
+      ps.push(pearson(m, exactMap));
+      ls.push(relL2(m, exactMap));
+    }
+    curve.push({ k, probe: 'rademacher', seeds: PROBE_SEEDS, pearson: ps, rel_l2: ls, ms: ts });
+  }
+  res.probe_curve = curve;
+
+  res.matmul = await matmulGflops(cache, Number(process.env.BENCH_MATMUL_N ?? 2048), repeats);
+  res.ort_version = ort.env.versions?.common ?? null;
+  console.log(JSON.stringify(res));
+  await s.engine.dispose();
+}
+
+main().catch((e) => { console.error(e); process.exit(1); });
