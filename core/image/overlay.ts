@@ -128,24 +128,35 @@ export function renderOverlayRgb(img: DecodedImage, map: MapGrid, g: Geometry, o
   const index = colormapIndexer(opts.range.lo, opts.range.hi, opts.colormap);
   const { xs, ys } = tapsForGeometry(map, g);
   const W = img.width;
-  const out = new Uint8Array(img.rgb.length);
+  const src = img.rgb;
+  const out = new Uint8Array(src.length);
   const row = new Float32Array(W);
+  // Straight alpha blend, out = round((1 − α)·image + α·colour), with both terms tabulated: the
+  // image term per 8-bit level, the colour term per table entry (+0.5 so truncation rounds).
+  const imageTerm = new Float64Array(256);
+  const dimmed = new Uint8Array(256);
+  for (let v = 0; v < 256; v++) {
+    imageTerm[v] = (1 - alpha) * v;
+    dimmed[v] = Math.round(v * dim);
+  }
+  const colourTerm = new Float64Array(768);
+  for (let i = 0; i < 768; i++) colourTerm[i] = alpha * table[i] + 0.5;
   for (let y = 0; y < img.height; y++) {
     sampleRow(map, xs, ys, y, row);
-    for (let x = 0; x < W; x++) {
-      const p = (y * W + x) * 3;
-      const v = row[x];
-      if (Number.isNaN(v) && (ys.inside[y] === 0 || xs.inside[x] === 0)) {
-        out[p] = Math.round(img.rgb[p] * dim);
-        out[p + 1] = Math.round(img.rgb[p + 1] * dim);
-        out[p + 2] = Math.round(img.rgb[p + 2] * dim);
+    const rowSeen = ys.inside[y] === 1;
+    let p = y * W * 3;
+    for (let x = 0; x < W; x++, p += 3) {
+      if (!rowSeen || xs.inside[x] === 0) {
+        // Not seen by the model: dimmed, uncoloured.
+        out[p] = dimmed[src[p]];
+        out[p + 1] = dimmed[src[p + 1]];
+        out[p + 2] = dimmed[src[p + 2]];
         continue;
       }
-      const c = index(v) * 3;
-      // Straight alpha blend: out = (1 − α)·image + α·colour.
-      out[p] = Math.round((1 - alpha) * img.rgb[p] + alpha * table[c]);
-      out[p + 1] = Math.round((1 - alpha) * img.rgb[p + 1] + alpha * table[c + 1]);
-      out[p + 2] = Math.round((1 - alpha) * img.rgb[p + 2] + alpha * table[c + 2]);
+      const c = index(row[x]) * 3;
+      out[p] = (imageTerm[src[p]] + colourTerm[c]) | 0;
+      out[p + 1] = (imageTerm[src[p + 1]] + colourTerm[c + 1]) | 0;
+      out[p + 2] = (imageTerm[src[p + 2]] + colourTerm[c + 2]) | 0;
     }
   }
   return out;
