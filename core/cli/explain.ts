@@ -9,7 +9,8 @@ import { resolveClass, expectedLabelFromPath } from '../io/labels';
 import { mapFileStem, layerShortName, writeUniqueFiles } from '../io/naming';
 import { encodeNpy } from '../io/npy';
 import { encodeRecord, FactfoilRecord, RECORD_FORMAT } from '../io/record';
-import { displayRange, DEFAULT_DISPLAY_RANGE } from '../image/normalize';
+import { displayRange, DEFAULT_DISPLAY_RANGE, DisplayRange } from '../image/normalize';
+import type { ColormapName } from '../image/colormap';
 import { renderOverlayPng, renderMapPng } from '../image/overlay';
 import type { CliArgs } from './main';
 import { resolveLayer } from './main';
@@ -57,6 +58,7 @@ export async function explainCommand(engine: Engine, args: CliArgs): Promise<num
   const onInt = () => abort.abort();
   process.once('SIGINT', onInt);
   const outputs: unknown[] = [];
+  const images: { image: string; expected: string | null; prediction: unknown }[] = [];
   let prediction: unknown;
   try {
     for (const file of files) {
@@ -79,7 +81,8 @@ export async function explainCommand(engine: Engine, args: CliArgs): Promise<num
           if (done === total) process.stderr.write('\n');
         } : undefined,
       });
-      for (const m of maps) outputs.push(await saveMap(ctx, input, m, top, v.out, v.raw ?? false));
+      for (const m of maps) outputs.push({ image: input.path, ...(await saveMap(ctx, input, m, top, v.out, v.raw ?? false)) });
+      images.push({ image: input.path, expected: expected !== undefined ? ctx.labels[expected] : null, prediction: top });
       process.stderr.write(`${file}: ${ctx.labels[fact]} (${(100 * p[fact]).toFixed(1)}%), ${maps.length} maps\n`);
     }
   } catch (e) {
@@ -88,19 +91,25 @@ export async function explainCommand(engine: Engine, args: CliArgs): Promise<num
   } finally {
     process.off('SIGINT', onInt);
   }
-  if (v.json) process.stdout.write(JSON.stringify({ outputs, prediction }) + '\n');
+  if (v.json) process.stdout.write(JSON.stringify({ outputs, prediction, images }) + '\n');
   return 0;
 }
 
-async function saveMap(ctx: ModelContext, input: ModelInput, m: MapResult, top: { index: number; label: string; p: number }[], outDir: string | undefined, raw: boolean) {
+/** How the panel drew a map (its colours and range), so the saved PNG looks like what the user saw. */
+export interface SaveDisplay { colormap: ColormapName; opacity: number; range: DisplayRange }
+
+/** Writes a map's PNG and record (and raw .npy) beside the image or into outDir, never overwriting. */
+export async function saveMap(ctx: ModelContext, input: ModelInput, m: MapResult, top: { index: number; label: string; p: number }[], outDir: string | undefined, raw: boolean, display?: SaveDisplay) {
   const q = m.question;
   const dir = outDir ? path.resolve(outDir) : path.dirname(input.path);
   const layerShort = m.layer === ctx.pm.model.input.name ? 'input' : layerShortName(m.layer);
   const stem = mapFileStem({ imagePath: input.path, map: q.kind, layerShort, fact: ctx.labels[q.fact], foil: q.foil !== undefined ? ctx.labels[q.foil] : undefined });
-  const range = displayRange(m.up.data, DEFAULT_DISPLAY_RANGE);
+  const range = display?.range ?? displayRange(m.up.data, DEFAULT_DISPLAY_RANGE);
+  const colormap = display?.colormap ?? 'viridis';
+  const opacity = display?.opacity ?? 0.6;
   const png = input.image && input.geometry
-    ? await renderOverlayPng(input.image, m.up, input.geometry, { colormap: 'viridis', opacity: 0.6, range })
-    : await renderMapPng(m.up, range, 'viridis');
+    ? await renderOverlayPng(input.image, m.up, input.geometry, { colormap, opacity, range })
+    : await renderMapPng(m.up, range, colormap);
   const exts = raw ? ['.png', '.json', '.npy'] : ['.png', '.json'];
   const layerInfo = ctx.pm.layers.find((l) => l.id === m.layer);
   const chosen = await writeUniqueFiles(dir, stem, exts, (c) => {
@@ -115,7 +124,7 @@ async function saveMap(ctx: ModelContext, input: ModelInput, m: MapResult, top: 
       fact: { index: q.fact, label: ctx.labels[q.fact] },
       foil: q.foil !== undefined ? { index: q.foil, label: ctx.labels[q.foil] } : null,
       estimate: m.estimate ? (m.estimate.mode === 'exact' ? { mode: 'exact' } : { mode: 'probe', k: m.estimate.k, seed: m.estimate.seed }) : null,
-      normalization: { kind: 'percentile', p: 99.5, lo: range.lo, hi: range.hi, colormap: 'viridis', opacity: 0.6 },
+      normalization: display ? { kind: 'fixed', lo: range.lo, hi: range.hi, colormap, opacity } : { kind: 'percentile', p: 99.5, lo: range.lo, hi: range.hi, colormap, opacity },
       prediction: top,
       files: { png: path.basename(c.paths[0]), ...(raw ? { raw: path.basename(c.paths[2]) } : {}) },
     };

@@ -1,7 +1,7 @@
 /** The `factfoil` command as CI calls it: a subprocess of dist/cli.js. */
 import { strict as assert } from 'node:assert';
 import { execFileSync, spawnSync } from 'node:child_process';
-import { mkdtempSync, cpSync, existsSync } from 'node:fs';
+import { mkdtempSync, cpSync, existsSync, readFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import * as path from 'node:path';
 import { readNpy } from '../../../core/io/npy';
@@ -39,6 +39,34 @@ describe('factfoil CLI', () => {
     assert.ok(existsSync(first.outputs[0].png) && existsSync(first.outputs[0].record));
     assert.notEqual(first.outputs[0].png, second.outputs[0].png);
     assert.match(second.outputs[0].png, /-2\.png$/);
+  });
+
+  it('predict gives PyTorch\'s probabilities for every demo image (manifest.json: PyTorch float32 softmax, within 1e-4)', () => {
+    const manifest = JSON.parse(readFileSync(path.join(FIXTURES, 'parts/demo/manifest.json'), 'utf8'));
+    for (const m of manifest.images as { image: string; top3: { label: string; p: number }[] }[]) {
+      const r = run(['predict', path.join(FIXTURES, 'parts/demo', m.image), '--model', path.join(FIXTURES, 'parts/parts-sorter.onnx'), '--top', '3', '--json']);
+      assert.equal(r.status, 0, r.stderr);
+      const got = JSON.parse(r.stdout).prediction as { label: string; p: number }[];
+      got.forEach((g, i) => {
+        assert.equal(g.label, m.top3[i].label, m.image);
+        assert.ok(Math.abs(g.p - m.top3[i].p) < 1e-4, `${m.image}: ${g.p} vs ${m.top3[i].p}`);
+      });
+    }
+  });
+
+  it('explain over a folder: one prediction per image, and a misclassified image is contrasted with its expected label', () => {
+    const dir = mkdtempSync(path.join(tmpdir(), 'ff-'));
+    cpSync(path.join(FIXTURES, 'parts/demo/hex-nut'), path.join(dir, 'hex-nut'), { recursive: true });
+    const r = run(['explain', dir, '--model', path.join(FIXTURES, 'parts/parts-sorter.onnx'), '--layer', 'last', '--json']);
+    assert.equal(r.status, 0, r.stderr);
+    const out = JSON.parse(r.stdout);
+    assert.equal(out.images.length, 3);
+    const wrong = out.images.find((i: { image: string }) => i.image.endsWith('hex-nut-0088.png'));
+    assert.equal(wrong.expected, 'hex-nut');
+    assert.equal(wrong.prediction[0].label, 'washer');
+    const map = out.outputs.find((o: { image: string }) => o.image === wrong.image);
+    assert.deepEqual([map.map, map.fact, map.foil], ['contrast', 'washer', 'hex-nut']);
+    assert.match(path.basename(map.png), /^hex-nut-0088\.contrast\..+\.washer-vs-hex-nut\.png$/);
   });
 
   it('user errors exit 2 with one line and no stack trace', () => {
