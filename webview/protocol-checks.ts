@@ -127,3 +127,21 @@ export function refine<T>(check: Check<T>, rule: (value: T) => string | undefine
     return x;
   };
 }
+
+/** A value or null (a figure that is undefined on this input, sent as JSON null). */
+export function nullable<T>(check: Check<T>): Check<T | null> {
+  return (v, path) => (v === null ? null : check(v, path));
+}
+
+/** An object whose keys are some of `keys` (each optional), every value passing `item`. */
+export function partialRecord<K extends string, T>(keys: readonly K[], item: Check<T>): Check<Partial<Record<K, T>>> {
+  return (v, path) => {
+    if (typeof v !== 'object' || v === null || Array.isArray(v)) throw new MessageShapeError(path, `expected an object, got ${describe(v)}`);
+    const out: Partial<Record<K, T>> = {};
+    for (const [k, x] of Object.entries(v as Record<string, unknown>)) {
+      if (!keys.includes(k as K)) throw new MessageShapeError(`${path}.${k}`, `unexpected key (expected one of ${keys.join(', ')})`);
+      out[k as K] = item(x, `${path}.${k}`);
+    }
+    return out;
+  };
+}

@@ -11,8 +11,17 @@
  * `cancel`, `reveal` and `log` are notifications: no id of their own, no answer.
  */
 import {
-  Check, MessageShapeError, arr, bool, int, literal, num, obj, opt, refine, str, tagged, tuple3,
+  Check, MessageShapeError, arr, bool, int, literal, nullable, num, obj, opt, partialRecord, refine, str, tagged, tuple3,
 } from './protocol-checks';
+import {
+  TRUST_MAP_KINDS, TRUST_REPORT_FORMAT, TRUST_TESTS,
+  type Curve, type DriftFigures, type FaithfulnessFigures, type FaithfulnessReport, type RobustnessReport, type RobustnessStep,
+  type SanityReport, type SanityStep, type TruthFigures, type TruthReport, type TrustMapKind, type TrustReport, type TrustTest,
+} from '../core/trust/report';
+
+// The trust-check report is defined once in core (pure types, no imports) and shared here.
+export { TRUST_MAP_KINDS, TRUST_TESTS };
+export type { TrustMapKind, TrustReport, TrustTest };
 
 export const PROTOCOL_VERSION = 1;
 
@@ -161,9 +170,14 @@ export interface FailedMessage { type: 'failed'; id: number; message: string; hi
 /** An unsolicited one-line message (e.g. the engine process restarted). */
 export interface NoticeMessage { type: 'notice'; level: 'info' | 'warning' | 'error'; message: string; hint?: string }
 
+/** Progress of a trust-check request (its own type, so a panel can show it apart from map progress). */
+export interface TrustProgressMessage { type: 'trustProgress'; id: number; done: number; total: number; message?: string }
+/** The answer to `requestTrust`: the report runTrustChecks returned. Errors and cancellation come as `failed`. */
+export interface TrustResultMessage { type: 'trustResult'; id: number; report: TrustReport }
+
 export type ToWebview =
   | InitMessage | MapsResultMessage | ProgressMessage | SaveResultMessage | SettingsResultMessage
-  | LabelsFileResultMessage | FailedMessage | NoticeMessage;
+  | LabelsFileResultMessage | FailedMessage | NoticeMessage | TrustProgressMessage | TrustResultMessage;
 
 // ---- webview → host ---------------------------------------------------------------------------
 
@@ -193,16 +207,37 @@ export interface SaveMessage {
 }
 export interface UpdateSettingsMessage { type: 'updateSettings'; id: number; settings: ModelSettings }
 export interface PickLabelsFileMessage { type: 'pickLabelsFile'; id: number }
+/** A region in original-image pixels (left, top, width, height) to score maps against. */
+export interface TrustBox { x: number; y: number; width: number; height: number }
+/**
+ * Run the trust checks (DESIGN §4.2) on the current image at one layer. Answered by zero or more
+ * `trustProgress`, then `trustResult` or `failed`; `cancel` with the same id stops it.
+ */
+export interface RequestTrustMessage {
+  type: 'requestTrust';
+  id: number;
+  layer: string;
+  fact: number;
+  /** For contrast maps; the host picks the runner-up when absent. */
+  foil?: number;
+  tests: TrustTest[];
+  /** Default: every kind the model supports. */
+  kinds?: TrustMapKind[];
+  /** Truth scoring needs one of them: a box, or a mask image file (non-zero = inside) the host reads. */
+  box?: TrustBox;
+  maskFile?: string;
+  seed?: number;
+}
 export interface CancelMessage { type: 'cancel'; id: number }
 export interface RevealMessage { type: 'reveal'; path: string }
 export interface LogMessage { type: 'log'; level: 'info' | 'warning' | 'error'; message: string }
 
 export type FromWebview =
   | ReadyMessage | RequestMapsMessage | SaveMessage | UpdateSettingsMessage | PickLabelsFileMessage
-  | CancelMessage | RevealMessage | LogMessage;
+  | CancelMessage | RevealMessage | LogMessage | RequestTrustMessage;
 
 /** Requests that expect an answer with the same id. */
-export type WebviewRequest = RequestMapsMessage | SaveMessage | UpdateSettingsMessage | PickLabelsFileMessage;
+export type WebviewRequest = RequestMapsMessage | SaveMessage | UpdateSettingsMessage | PickLabelsFileMessage | RequestTrustMessage;
 
 // ---- runtime checks ---------------------------------------------------------------------------
 
@@ -308,6 +343,64 @@ function indicesWithin(labels: string[], pred: Prediction[], expected: number | 
   return undefined;
 }
 
+// ---- trust report checks (shape of core/trust/report.ts) ---------------------------------------
+
+const MAX_CURVE = 100_001;
+const trustKind = literal<TrustMapKind>(...TRUST_MAP_KINDS);
+const trustTest = literal<TrustTest>(...TRUST_TESTS);
+const UNIT = num(0, 1);
+const CORRELATION = nullable(num(-1 - 1e-6, 1 + 1e-6));
+const perKindFigure = partialRecord(TRUST_MAP_KINDS, CORRELATION);
+const curve: Check<Curve> = refine(obj<Curve>({ x: arr(UNIT, MAX_CURVE, 1), y: arr(UNIT, MAX_CURVE, 1), auc: UNIT }),
+  (c) => (c.x.length === c.y.length ? undefined : `x has ${c.x.length} points, y ${c.y.length}`));
+const figures = obj<FaithfulnessFigures>({ deletion: curve, insertion: curve });
+const sanityStep = obj<SanityStep>({
+  randomized: arr(NAME, 10_000), initializers: int(0, 1e9), p_fact: UNIT,
+  spearman: perKindFigure, spearman_abs: perKindFigure, ssim: perKindFigure, hog: perKindFigure, flat: arr(trustKind, TRUST_MAP_KINDS.length),
+});
+const sanityReport = obj<SanityReport>({
+  seed: int(0, 2 ** 32 - 1),
+  blocks: arr(obj({ stage: NAME, initializers: int(0, 1e9) }), 10_000),
+  cascade: arr(sanityStep, 10_000),
+  independent: arr(sanityStep, 10_000),
+});
+const faithfulnessReport = obj<FaithfulnessReport>({
+  step_pixels: int(1, MAX_PIXELS),
+  blur_sigma: num(0, MAX_SIDE),
+  maps: partialRecord(TRUST_MAP_KINDS, figures),
+  random: obj<FaithfulnessReport['random']>({
+    deletion: curve, insertion: curve, seeds: arr(int(0, 2 ** 32 - 1), 1000, 1), deletion_auc: arr(UNIT, 1000, 1), insertion_auc: arr(UNIT, 1000, 1),
+  }),
+});
+const truthFigures = obj<TruthFigures>({
+  nss: nullable(FINITE), cc: CORRELATION, auc_judd: nullable(UNIT), sim: nullable(UNIT), energy_in_mask: nullable(UNIT), pointing_hit: bool(),
+});
+const truthReport = obj<TruthReport>({
+  source: literal('mask', 'box'), mask_fraction: UNIT, pointing_tolerance_px: num(0, MAX_SIDE), maps: partialRecord(TRUST_MAP_KINDS, truthFigures),
+});
+const driftFigures = obj<DriftFigures>({ spearman: CORRELATION, ssim: CORRELATION, pearson: CORRELATION });
+const robustnessReport = obj<RobustnessReport>({
+  noise_seed: int(0, 2 ** 32 - 1),
+  steps: arr(obj<RobustnessStep>({
+    perturbation: literal('blur', 'noise'), strength: num(0, 1e6), p_fact: UNIT, drift: partialRecord(TRUST_MAP_KINDS, driftFigures),
+  }), 1000),
+});
+const trustReport = obj<TrustReport>({
+  format: literal(TRUST_REPORT_FORMAT),
+  layer: NAME,
+  fact: CLASS_INDEX,
+  foil: opt(CLASS_INDEX),
+  p_fact: UNIT,
+  kinds: arr(trustKind, TRUST_MAP_KINDS.length, 1),
+  seed: int(0, 2 ** 32 - 1),
+  sanity: opt(sanityReport),
+  faithfulness: opt(faithfulnessReport),
+  truth: opt(truthReport),
+  robustness: opt(robustnessReport),
+  notes: arr(MESSAGE, 100),
+});
+const trustBox = obj<TrustBox>({ x: FINITE, y: FINITE, width: POSITIVE, height: POSITIVE });
+
 const toWebview: Check<ToWebview> = tagged<ToWebview>({
   init: refine(obj<InitMessage>({
     type: literal('init'),
@@ -339,6 +432,9 @@ const toWebview: Check<ToWebview> = tagged<ToWebview>({
   labelsFileResult: obj<LabelsFileResultMessage>({ type: literal('labelsFileResult'), id: REQUEST_ID, path: opt(PATH) }),
   failed: obj<FailedMessage>({ type: literal('failed'), id: REQUEST_ID, message: MESSAGE, hint: opt(MESSAGE), cancelled: opt(bool()) }),
   notice: obj<NoticeMessage>({ type: literal('notice'), level, message: MESSAGE, hint: opt(MESSAGE) }),
+  trustProgress: refine(obj<TrustProgressMessage>({ type: literal('trustProgress'), id: REQUEST_ID, done: num(0, 1e12), total: num(0, 1e12), message: opt(MESSAGE) }),
+    (m) => (m.done <= m.total ? undefined : `done ${m.done} > total ${m.total}`)),
+  trustResult: obj<TrustResultMessage>({ type: literal('trustResult'), id: REQUEST_ID, report: trustReport }),
 });
 
 const fromWebview: Check<FromWebview> = tagged<FromWebview>({
@@ -355,6 +451,11 @@ const fromWebview: Check<FromWebview> = tagged<FromWebview>({
   cancel: obj<CancelMessage>({ type: literal('cancel'), id: REQUEST_ID }),
   reveal: obj<RevealMessage>({ type: literal('reveal'), path: PATH }),
   log: obj<LogMessage>({ type: literal('log'), level, message: MESSAGE }),
+  requestTrust: refine(obj<RequestTrustMessage>({
+    type: literal('requestTrust'), id: REQUEST_ID, layer: NAME, fact: CLASS_INDEX, foil: opt(CLASS_INDEX),
+    tests: arr(trustTest, TRUST_TESTS.length, 1), kinds: opt(arr(trustKind, TRUST_MAP_KINDS.length, 1)),
+    box: opt(trustBox), maskFile: opt(PATH), seed: opt(int(0, 2 ** 32 - 1)),
+  }), (m) => (m.box && m.maskFile ? 'give a box or a mask file, not both' : undefined)),
 });
 
 export type Checked<T> = { ok: true; message: T } | { ok: false; reason: string };

@@ -289,7 +289,7 @@ describe('panel in headless Chromium', function () {
 
     const logsBefore = host.ofType('log').length;
     const shown = await shownMapId(page);
-    await host.send({ type: 'mapsResult', id: 1, maps: [{ mapId: 'evil', kind: 'contrast' }], final: true });
+    await host.send({ type: 'mapsResult', id: 1, maps: [{ mapId: 'evil', kind: 'contrast' }], final: true } as Record<string, unknown>);
     await host.send({ type: 'init', version: 1 });
     const log = await host.waitFor('log', logsBefore + 2);
     assert.match(log.message, /dropped a malformed message: message\.\w+/);
