@@ -1,6 +1,7 @@
 /**
  * Conv: the input gradient of y = conv(x, W) is the transposed convolution of g with the same
- * W, strides, pads, dilations and groups (ONNX ConvTranspose). `output_padding` restores the
+ * W, strides, pads, dilations and groups (ONNX ConvTranspose); at stride 1 it is emitted as the
+ * equivalent plain Conv with the flipped kernel. `output_padding` restores the
  * exact input size; `output_shape` is never used (the runtime recomputes pads from it and is
  * wrong for asymmetric pads — measured in the feasibility study).
  */
@@ -48,12 +49,40 @@ const conv: GradientRule = (ctx) => {
     throw new UserError(`${nodeLabel(node)}: cannot invert its geometry (output_padding ${outputPadding.join(',')})`);
   }
   const gy = b.op1('Reshape', [g, b.constI64([-1, ...ys.slice(1)])]);
+  const flippedPads = pads.map((p, i) => (kernel[i % n] - 1) * dil[i % n] - p);
+  if (stridesA.every((s) => s === 1) && flippedPads.every((p) => p >= 0)) {
+    // Stride 1: the transposed convolution equals a plain Conv with the flipped, in/out-swapped
+    // kernel and pads (k−1)·d − p (the adjoint of a correlation is the correlation with the
+    // reversed kernel); onnxruntime's Conv is much faster than its ConvTranspose (measured in
+    // test/bench). The kernel rearrangement is constant, so the runtime folds it once.
+    const gx = b.op1('Conv', [gy, flippedKernel(ctx, w, ws, group)], {
+      pads: A.ints(flippedPads), dilations: A.ints(dil), group: A.i(group), kernel_shape: A.ints(kernel), strides: A.ints(stridesA),
+    });
+    return [reshapeGrad(ctx, gx, xs)];
+  }
   const gx = b.op1('ConvTranspose', [gy, w], {
     strides: A.ints(stridesA), pads: A.ints(pads), dilations: A.ints(dil), group: A.i(group),
     kernel_shape: A.ints(kernel), output_padding: A.ints(outputPadding),
   });
   return [reshapeGrad(ctx, gx, xs)];
 };
+
+/**
+ * Conv weights [Cout, Cin/g, k…] → the kernel of the adjoint Conv, [Cin, Cout/g, k…]: within each
+ * group swap the in/out axes, then reverse every spatial axis (Slice with step −1).
+ */
+function flippedKernel(ctx: RuleContext, w: string, ws: number[], group: number): string {
+  const { b } = ctx;
+  const [cout, cinG, ...k] = ws;
+  const spatial = k.map((_, i) => i + 3);
+  const grouped = b.op1('Reshape', [w, b.constI64([group, cout / group, cinG, ...k])]);
+  const swapped = b.op1('Transpose', [grouped], { perm: A.ints([0, 2, 1, ...spatial]) });
+  const kernel = b.op1('Reshape', [swapped, b.constI64([group * cinG, cout / group, ...k])]);
+  const flipAxes = k.map((_, i) => i + 2).filter((_, i) => k[i] > 1);
+  if (!flipAxes.length) return kernel;
+  const big = 2 ** 62;
+  return b.op1('Slice', [kernel, b.constI64(flipAxes.map(() => -1)), b.constI64(flipAxes.map(() => -big)), b.constI64(flipAxes), b.constI64(flipAxes.map(() => -1))]);
+}
 
 /**
  * ConvTranspose is the adjoint of Conv with the same weights, so its input gradient is a Conv of
