@@ -15,7 +15,7 @@ import {
 } from './protocol-checks';
 import {
   TRUST_MAP_KINDS, TRUST_REPORT_FORMAT, TRUST_TESTS,
-  type Curve, type DriftFigures, type FaithfulnessFigures, type FaithfulnessReport, type RobustnessReport, type RobustnessStep,
+  type Curve, type DriftFigures, type RandomBaseline, type RandomFigures, type FaithfulnessFigures, type FaithfulnessReport, type RobustnessReport, type RobustnessStep,
   type SanityReport, type SanityStep, type TruthFigures, type TruthReport, type TrustMapKind, type TrustReport, type TrustTest,
 } from '../core/trust/report';
 
@@ -353,7 +353,6 @@ const CORRELATION = nullable(num(-1 - 1e-6, 1 + 1e-6));
 const perKindFigure = partialRecord(TRUST_MAP_KINDS, CORRELATION);
 const curve: Check<Curve> = refine(obj<Curve>({ x: arr(UNIT, MAX_CURVE, 1), y: arr(UNIT, MAX_CURVE, 1), auc: UNIT }),
   (c) => (c.x.length === c.y.length ? undefined : `x has ${c.x.length} points, y ${c.y.length}`));
-const figures = obj<FaithfulnessFigures>({ deletion: curve, insertion: curve });
 const sanityStep = obj<SanityStep>({
   randomized: arr(NAME, 10_000), initializers: int(0, 1e9), p_fact: UNIT,
   spearman: perKindFigure, spearman_abs: perKindFigure, ssim: perKindFigure, hog: perKindFigure, flat: arr(trustKind, TRUST_MAP_KINDS.length),
@@ -364,12 +363,16 @@ const sanityReport = obj<SanityReport>({
   cascade: arr(sanityStep, 10_000),
   independent: arr(sanityStep, 10_000),
 });
+const randomFigures = {
+  deletion: curve, insertion: curve, seeds: arr(int(0, 2 ** 32 - 1), 1000, 1), deletion_auc: arr(UNIT, 1000, 1), insertion_auc: arr(UNIT, 1000, 1),
+};
 const faithfulnessReport = obj<FaithfulnessReport>({
   step_pixels: int(1, MAX_PIXELS),
   blur_sigma: num(0, MAX_SIDE),
-  maps: partialRecord(TRUST_MAP_KINDS, figures),
+  maps: partialRecord(TRUST_MAP_KINDS, obj<FaithfulnessFigures & { baseline: RandomBaseline }>({ deletion: curve, insertion: curve, baseline: literal('pixels', 'layer_grid') })),
   random: obj<FaithfulnessReport['random']>({
-    deletion: curve, insertion: curve, seeds: arr(int(0, 2 ** 32 - 1), 1000, 1), deletion_auc: arr(UNIT, 1000, 1), insertion_auc: arr(UNIT, 1000, 1),
+    pixels: obj<RandomFigures>(randomFigures),
+    layer_grid: obj<RandomFigures & { grid: [number, number] }>({ ...randomFigures, grid: arr(SIDE, 2, 2) as Check<[number, number]> }),
   }),
 });
 const truthFigures = obj<TruthFigures>({

@@ -10,6 +10,7 @@ import { resolveClass } from '../io/labels';
 import { encodeNpy } from '../io/npy';
 import { writeFileAtomic } from '../io/atomic';
 import { explainCommand } from './explain';
+import { checkCommand } from './check';
 
 const USAGE = `usage:
   factfoil layers  <model.onnx> [--json]
@@ -17,13 +18,17 @@ const USAGE = `usage:
   factfoil explain <image>... --model <m.onnx> [--map <kind>] [--fact <c>] [--foil <c>] [--contrast margin|loss]
                    [--mismatch weighted|gradient] [--layer <tensor|index|last|stages|all>] [--estimate exact|probe:<K>]
                    [--input <x.npy>] [--out <dir>] [--raw] [--json]
-  factfoil grad    --model <m.onnx> (--input <x.npy> | <image>) --layer <tensor> --target <class> [--loss logit|ce] --out <g.npy>`;
+  factfoil grad    --model <m.onnx> (--input <x.npy> | <image>) --layer <tensor> --target <class> [--loss logit|ce] --out <g.npy>
+  factfoil check   <image|folder>... --model <m.onnx> [--mask <m.png> | --box x,y,w,h | --masks <dir>]
+                   [--map evidence,contrast,detail,guided-evidence,gradient] [--layer <tensor|index>] [--fact <c>] [--foil <c>]
+                   [--tests sanity,faithfulness,truth,robustness] [--seed <n>] [--out <dir>] [--json]`;
 
 const OPTIONS = {
   model: { type: 'string' }, labels: { type: 'string' }, top: { type: 'string' }, json: { type: 'boolean' },
   map: { type: 'string' }, fact: { type: 'string' }, foil: { type: 'string' }, contrast: { type: 'string' },
   mismatch: { type: 'string' }, layer: { type: 'string' }, estimate: { type: 'string' }, input: { type: 'string' },
   out: { type: 'string' }, raw: { type: 'boolean' }, target: { type: 'string' }, loss: { type: 'string' }, help: { type: 'boolean', short: 'h' },
+  mask: { type: 'string' }, box: { type: 'string' }, masks: { type: 'string' }, tests: { type: 'string' }, seed: { type: 'string' },
 } as const;
 
 export type CliArgs = ReturnType<typeof parse>;
@@ -46,7 +51,8 @@ export async function main(argv: string[]): Promise<number> {
     if (command === 'predict') return await predictCommand(engine, args);
     if (command === 'explain') return await explainCommand(engine, args);
     if (command === 'grad') return await gradCommand(engine, args);
-    throw new UserError(`unknown command '${command}'`, 'commands: layers, predict, explain, grad');
+    if (command === 'check') return await checkCommand(engine, args);
+    throw new UserError(`unknown command '${command}'`, 'commands: layers, predict, explain, grad, check');
   } catch (e) {
     if (isUserError(e)) { process.stderr.write(`factfoil: ${e.oneLine()}\n`); return 2; }
     process.stderr.write(`factfoil: internal error: ${(e as Error).stack ?? e}\n`);

@@ -47,14 +47,26 @@ export interface Curve { x: number[]; y: number[]; auc: number }
 
 export interface FaithfulnessFigures { deletion: Curve; insertion: Curve }
 
+/** Random pixel orders, one per seed: the curves averaged point by point, and each seed's areas. */
+export interface RandomFigures extends FaithfulnessFigures { seeds: number[]; deletion_auc: number[]; insertion_auc: number[] }
+
+/** Which random baseline a map is judged against: one of the same smoothness. */
+export type RandomBaseline = 'pixels' | 'layer_grid';
+
 export interface FaithfulnessReport {
   /** Input pixels changed between two scored points of a curve. */
   step_pixels: number;
   /** σ of the blur insertion starts from, in input pixels. */
   blur_sigma: number;
-  maps: PerKind<FaithfulnessFigures>;
-  /** Random pixel orders, one per seed: the curves averaged point by point, and each seed's areas. */
-  random: FaithfulnessFigures & { seeds: number[]; deletion_auc: number[]; insertion_auc: number[] };
+  maps: PerKind<FaithfulnessFigures & { baseline: RandomBaseline }>;
+  /**
+   * Two random baselines. `pixels`: an independent random value per input pixel (for detail,
+   * guided-evidence and gradient maps). `layer_grid`: random values on the layer's grid,
+   * upsampled bilinearly as Grad-CAM maps are (for evidence and contrast): removing scattered
+   * single pixels hurts a CNN differently from removing smooth blobs, so each map is compared
+   * with random orders of its own smoothness (this project's choice).
+   */
+  random: { pixels: RandomFigures; layer_grid: RandomFigures & { grid: [number, number] } };
 }
 
 export interface TruthFigures {

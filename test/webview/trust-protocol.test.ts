@@ -15,8 +15,11 @@ export const SAMPLE_REPORT: TrustReport = {
   sanity: { seed: 2018, blocks: [{ stage: 'stage4', initializers: 2 }], cascade: [step(['stage4'])], independent: [step(['stage4'])] },
   faithfulness: {
     step_pixels: 10, blur_sigma: 5.6,
-    maps: { evidence: { deletion: curve([0.9, 0.1, 0]), insertion: curve([0, 0.8, 0.9]) } },
-    random: { deletion: curve([0.9, 0.5, 0]), insertion: curve([0, 0.4, 0.9]), seeds: [1, 2], deletion_auc: [0.5, 0.5], insertion_auc: [0.4, 0.4] },
+    maps: { evidence: { deletion: curve([0.9, 0.1, 0]), insertion: curve([0, 0.8, 0.9]), baseline: 'layer_grid' } },
+    random: {
+      pixels: { deletion: curve([0.9, 0.5, 0]), insertion: curve([0, 0.4, 0.9]), seeds: [1, 2], deletion_auc: [0.5, 0.5], insertion_auc: [0.4, 0.4] },
+      layer_grid: { deletion: curve([0.9, 0.6, 0]), insertion: curve([0, 0.5, 0.9]), seeds: [1, 2], deletion_auc: [0.5, 0.5], insertion_auc: [0.4, 0.4], grid: [7, 7] },
+    },
   },
   truth: { source: 'box', mask_fraction: 0.2, pointing_tolerance_px: 15, maps: { evidence: { nss: 1.2, cc: 0.4, auc_judd: 0.8, sim: 0.3, energy_in_mask: 0.6, pointing_hit: true } } },
   robustness: { noise_seed: 7, steps: [{ perturbation: 'blur', strength: 1, p_fact: 0.8, drift: { evidence: { spearman: 0.9, ssim: 0.8, pearson: 0.95 } } }] },
@@ -47,7 +50,7 @@ describe('trust messages of the panel protocol', () => {
       [{ type: 'trustResult', id: 1, report: { ...SAMPLE_REPORT, kinds: ['heat'] } }, /report\.kinds\[0\]/, 'to'],
       [{ type: 'trustResult', id: 1, report: { ...SAMPLE_REPORT, sanity: { ...SAMPLE_REPORT.sanity!, cascade: [{ ...step([]), spearman: { heat: 1 } }] } } }, /cascade\[0\]\.spearman\.heat: unexpected key/, 'to'],
       [{ type: 'trustResult', id: 1, report: { ...SAMPLE_REPORT, sanity: { ...SAMPLE_REPORT.sanity!, cascade: [{ ...step([]), ssim: { detail: 2 } }] } } }, /ssim\.detail: 2 outside/, 'to'],
-      [{ type: 'trustResult', id: 1, report: { ...SAMPLE_REPORT, faithfulness: { ...SAMPLE_REPORT.faithfulness!, maps: { evidence: { deletion: { x: [0, 1], y: [1], auc: 0.5 }, insertion: curve([0, 1]) } } } } }, /x has 2 points, y 1/, 'to'],
+      [{ type: 'trustResult', id: 1, report: { ...SAMPLE_REPORT, faithfulness: { ...SAMPLE_REPORT.faithfulness!, maps: { evidence: { deletion: { x: [0, 1], y: [1], auc: 0.5 }, insertion: curve([0, 1]), baseline: 'pixels' } } } } }, /x has 2 points, y 1/, 'to'],
       [{ type: 'trustResult', id: 1, report: { ...SAMPLE_REPORT, extra: true } }, /report\.extra: unexpected field/, 'to'],
     ];
     for (const [m, why, dir] of bad) {

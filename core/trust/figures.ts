@@ -1,0 +1,99 @@
+/**
+ * The report's charts, each with its one-line plain explanation: deletion and insertion curves,
+ * the randomization cascade, and map drift under blur and noise. Shared by the CLI's PNG report
+ * and the panel; imports only import-free modules.
+ */
+import { LineChartSpec, Series } from './chart';
+import { TRUST_MAP_KINDS, TrustMapKind, TrustReport } from './report';
+
+export const KIND_NAMES: Record<TrustMapKind, string> = {
+  evidence: 'evidence', contrast: 'contrast', detail: 'detail', 'guided-evidence': 'guided-evidence', gradient: 'gradient',
+};
+
+/** Colour slot of a kind: its place in TRUST_MAP_KINDS. */
+export const slotOf = (k: TrustMapKind): number => TRUST_MAP_KINDS.indexOf(k);
+
+export const EXPLAIN = {
+  deletion: 'Most salient pixels removed first: the faster the fact\'s probability falls, the more the map found what the model used (lower area is better).',
+  insertion: 'Most salient pixels put back first into a blurred copy: the faster the probability rises, the better (higher area is better).',
+  cascade: 'Weights replaced by random ones, from the scores down: a map that explains the model must change (fall towards 0); one that stays high shows the image, not the model.',
+  independent: 'One block randomized at a time: a faithful map changes whichever block is destroyed.',
+  blur: 'The same map on a blurred input: values near 1 mean the map is stable under small changes the prediction survives.',
+  noise: 'The same map with noise added to the input (σ as a share of the input\'s spread).',
+  truth: 'Scores against the region you marked: NSS > 0 and AUC > 0.5 mean the map favours the region; pointing asks whether its peak lies on it.',
+  caution: 'A map explains the model, not the world: it shows what this network used, which may be a shortcut rather than the object. Validate before relying on it in safety-critical use.',
+} as const;
+
+const UNIT_TICKS = [0, 0.25, 0.5, 0.75, 1];
+const percentTicks = { min: 0, max: 1, ticks: [0, 0.25, 0.5, 0.75, 1].map((at) => ({ at, label: `${Math.round(at * 100)}%` })) };
+const fmt = (v: number): string => v.toFixed(2);
+
+/** Deletion and insertion: one line per map kind, the matching random baselines dashed. */
+export function faithfulnessCharts(r: TrustReport): LineChartSpec[] {
+  const f = r.faithfulness;
+  if (!f) return [];
+  const make = (which: 'deletion' | 'insertion'): LineChartSpec => {
+    const series: Series[] = [];
+    for (const k of r.kinds) {
+      const c = f.maps[k]?.[which];
+      if (c) series.push({ name: `${KIND_NAMES[k]} ${fmt(c.auc)}`, slot: slotOf(k), points: c.x.map((x, i) => [x, c.y[i]]) });
+    }
+    const used = new Set(Object.values(f.maps).map((m) => m!.baseline));
+    for (const b of ['layer_grid', 'pixels'] as const) {
+      if (!used.has(b)) continue;
+      const c = f.random[b][which];
+      series.push({ name: `random${b === 'layer_grid' ? ' (grid)' : ''} ${fmt(c.auc)}`, slot: 'base', dashed: b === 'pixels', points: c.x.map((x, i) => [x, c.y[i]]) });
+    }
+    return {
+      title: which === 'deletion' ? 'Deletion' : 'Insertion', caption: which === 'deletion' ? 'lower area is better' : 'higher area is better',
+      xLabel: which === 'deletion' ? 'pixels removed' : 'pixels restored', yLabel: 'p(fact)', x: percentTicks, y: { min: 0, max: 1, ticks: UNIT_TICKS }, series,
+    };
+  };
+  return [make('deletion'), make('insertion')];
+}
+
+/** Spearman rank correlation with the original map after each cascade step (the trained model first, at 1). */
+export function cascadeChart(r: TrustReport, measure: 'spearman' | 'spearman_abs' | 'ssim' | 'hog' = 'spearman', which: 'cascade' | 'independent' = 'cascade'): LineChartSpec | undefined {
+  const s = r.sanity;
+  const steps = s?.[which];
+  if (!s || !steps?.length) return undefined;
+  const cascade = which === 'cascade';
+  const labels = [...(cascade ? ['trained'] : []), ...steps.map((st, i) => (cascade ? (i === 0 ? st.randomized[0] : `+${st.randomized.at(-1)}`) : st.randomized[0]))];
+  const offset = cascade ? 1 : 0;
+  const series: Series[] = r.kinds.map((k) => ({
+    name: KIND_NAMES[k], slot: slotOf(k),
+    points: [...(cascade ? [[0, 1] as [number, number]] : []), ...steps.map((st, i) => [i + offset, flatAsZero(st[measure][k], st.flat.includes(k))] as [number, number])],
+  }));
+  const min = Math.min(0, ...series.flatMap((x) => x.points.map((p) => p[1])).filter(Number.isFinite));
+  return {
+    title: cascade ? 'Randomization cascade' : 'One block randomized', caption: `${{ spearman: 'Spearman', spearman_abs: 'Spearman of |map|', ssim: 'SSIM', hog: 'HOG Pearson' }[measure]} with the trained model's map`,
+    xLabel: cascade ? 'weights randomized, from the scores down' : 'block randomized', yLabel: measure === 'hog' ? 'HOG r' : measure === 'ssim' ? 'SSIM' : 'rank corr.',
+    x: { min: 0, max: Math.max(1, labels.length - 1), ticks: labels.map((label, at) => ({ at, label: label.length > 9 ? label.slice(0, 8) + '…' : label })) },
+    y: { min: min < -0.01 ? -1 : 0, max: 1, ticks: min < -0.01 ? [-1, -0.5, 0, 0.5, 1] : UNIT_TICKS }, series, width: 420,
+  };
+}
+
+/** A map that went flat kept none of the original's structure: drawn at 0 (its correlation is undefined). */
+function flatAsZero(v: number | null | undefined, flat: boolean): number {
+  return v ?? (flat ? 0 : NaN);
+}
+
+/** Spearman of the perturbed map with the clean one, against blur σ and noise σ. */
+export function driftCharts(r: TrustReport): LineChartSpec[] {
+  const steps = r.robustness?.steps;
+  if (!steps?.length) return [];
+  const make = (p: 'blur' | 'noise'): LineChartSpec | undefined => {
+    const st = steps.filter((s) => s.perturbation === p);
+    if (!st.length) return undefined;
+    const max = Math.max(...st.map((s) => s.strength));
+    const series: Series[] = r.kinds.map((k) => ({ name: KIND_NAMES[k], slot: slotOf(k), points: [[0, 1] as [number, number], ...st.map((s) => [s.strength, s.drift[k]?.spearman ?? NaN] as [number, number])] }));
+    series.push({ name: 'p(fact)', slot: 'base', dashed: true, points: [[0, r.p_fact], ...st.map((s) => [s.strength, s.p_fact] as [number, number])] });
+    return {
+      title: p === 'blur' ? 'Under blur' : 'Under noise', caption: 'rank corr. with the clean map',
+      xLabel: p === 'blur' ? 'blur σ (input px)' : 'noise σ (× input sd)', yLabel: 'Spearman',
+      x: { min: 0, max, ticks: [0, ...st.map((s) => s.strength)].map((at) => ({ at, label: String(at) })) },
+      y: { min: 0, max: 1, ticks: UNIT_TICKS }, series,
+    };
+  };
+  return [make('blur'), make('noise')].filter((c): c is LineChartSpec => !!c);
+}
