@@ -14,7 +14,7 @@ import { join, relative, resolve } from 'node:path';
 import type { Frame, Page } from 'playwright-core';
 import { readRecord } from '../../core/io/record';
 import { Manifest, ROOT, RunningCodeServer, ScratchDirs, installExtension, scratchDirs, startCodeServer, writeUserSettings } from './harness/code-server';
-import { Workbench, frameWith, openWorkbench, quickPickRow, revealInExplorer } from './harness/workbench';
+import { Workbench, frameWith, openWorkbench, pickColorTheme, quickPickRow, revealInExplorer } from './harness/workbench';
 
 const pkg = JSON.parse(readFileSync(join(ROOT, 'package.json'), 'utf8')) as { name: string; version: string };
 const VSIX = resolve(process.env.FACTFOIL_E2E_VSIX ?? join(ROOT, 'dist-vsix', `${pkg.name}-${pkg.version}-linux-x64.vsix`));
@@ -205,8 +205,8 @@ describe('end to end in code-server: explain a demo image from the Explorer', fu
     assert.deepEqual([...before].sort(), readdirSync(imageDir).filter((f) => before.has(f)).sort(), 'no existing file was touched');
 
     await step('switch to the dark theme and take a screenshot', 60, async () => {
-      writeUserSettings(d, 'Default Dark Modern');
-      await page.locator('.monaco-workbench.vs-dark').waitFor({ timeout: 30_000 });
+      await pickColorTheme(page, 'Dark Modern');
+      await page.locator('.monaco-workbench.vs-dark').waitFor({ timeout: 20_000 });
       await panel.locator('body.vscode-dark').waitFor({ timeout: 20_000 });
       await page.waitForTimeout(500);
       await page.screenshot({ path: join(SHOTS, 'workbench-dark.png') });

@@ -14,7 +14,7 @@ const ARGS = ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run
 export interface Workbench { page: Page; context: BrowserContext; close(): Promise<void> }
 
 /** Chromium with a fresh profile inside the scratch folder, opened on the workspace folder. */
-export async function openWorkbench(d: ScratchDirs, url: string, folder: string, viewport = { width: 1440, height: 900 }): Promise<Workbench> {
+export async function openWorkbench(d: ScratchDirs, url: string, folder: string, viewport = { width: 1600, height: 1300 }): Promise<Workbench> {
   if (!existsSync(CHROMIUM)) throw new Error(`${CHROMIUM} is missing: apt-get install -y chromium`);
   const profile = join(d.root, 'chromium-profile');
   mkdirSync(profile, { recursive: true });
@@ -26,10 +26,11 @@ export async function openWorkbench(d: ScratchDirs, url: string, folder: string,
   return { page, context, close: () => context.close() };
 }
 
+const exactly = (text: string) => new RegExp(`^${text.replace(/[.*+?^${}()|[\]\\]/g, '\\$&')}$`);
+
 /** An Explorer row whose name is exactly `name`. */
 export function explorerRow(page: Page, name: string): Locator {
-  return page.locator('.explorer-folders-view .monaco-list-row')
-    .filter({ has: page.locator('.label-name', { hasText: new RegExp(`^${name.replace(/[.*+?^${}()|[\]\\]/g, '\\$&')}$`) }) });
+  return page.locator('.explorer-folders-view .monaco-list-row').filter({ has: page.locator('.label-name', { hasText: exactly(name) }) });
 }
 
 /** Expands the folders along `path` in the Explorer (collapsed ones only) and returns the last row. */
@@ -44,9 +45,10 @@ export async function revealInExplorer(page: Page, path: string[], timeout: numb
   return row!;
 }
 
-/** The quick-pick row whose label contains `text`; waits for the quick input to show it. */
-export function quickPickRow(page: Page, text: string): Locator {
-  return page.locator('.quick-input-widget .quick-input-list .monaco-list-row', { hasText: text });
+/** The quick-pick rows whose label contains `text`, or is exactly `text`. */
+export function quickPickRow(page: Page, text: string, exact = false): Locator {
+  const rows = page.locator('.quick-input-widget .quick-input-list .monaco-list-row');
+  return exact ? rows.filter({ has: page.locator('.label-name', { hasText: exactly(text) }) }) : rows.filter({ hasText: text });
 }
 
 /**
@@ -63,4 +65,38 @@ export async function frameWith(page: Page, selector: string, timeout: number): 
     if (Date.now() > deadline) throw new Error(`no webview frame shows ${selector} after ${timeout / 1000} s`);
     await new Promise((r) => setTimeout(r, 250));
   }
+}
+
+/**
+ * Runs a command from the palette by its title. A contributed command can be missing on the
+ * first try (the extension host registers it a little after the workbench shows): retry.
+ */
+export async function runFromPalette(page: Page, title: string, tries = 5): Promise<void> {
+  for (let attempt = 1; ; attempt++) {
+    await page.locator('.part.editor .tabs-container .tab.active').first().click();
+    await page.keyboard.press('F1');
+    const input = page.locator('.quick-input-widget input');
+    await input.waitFor({ state: 'visible', timeout: 10_000 });
+    await input.fill(`>${title}`);
+    const row = quickPickRow(page, title, true).first();
+    try {
+      await row.waitFor({ state: 'visible', timeout: 3_000 });
+      await row.click();
+      return;
+    } catch (e) {
+      await page.keyboard.press('Escape');
+      if (attempt === tries) throw new Error(`the command palette never offered "${title}" (${tries} tries): ${(e as Error).message}`);
+    }
+  }
+}
+
+/** Picks a colour theme the way a user does (Preferences: Color Theme, type its name, Enter). */
+export async function pickColorTheme(page: Page, label: string): Promise<void> {
+  await runFromPalette(page, 'Preferences: Color Theme');
+  const input = page.locator('.quick-input-widget input');
+  await input.fill(label);
+  const row = quickPickRow(page, label, true).first();
+  await row.waitFor({ state: 'visible', timeout: 10_000 });
+  await row.click();
+  await page.locator('.quick-input-widget').waitFor({ state: 'hidden', timeout: 10_000 });
 }
