@@ -1,25 +1,56 @@
 /** Seed chunk sizes under a memory budget. */
 import { PreparedModel } from '../plan/prepared';
 import { ancestorsOf } from '../model/layers';
+import { UserError } from '../errors';
 
 export const DEFAULT_BUDGET_BYTES = 1024 ** 3;
 
 /**
- * How many seeds fit one run: each seed carries a gradient for every tensor between the layers
- * and the scores; live buffers are estimated as twice their sum (the backward keeps about one
- * gradient and one temporary per tensor alive; a rule of thumb measured on the ResNet fixtures,
- * no source).
+ * Float32 values one seed keeps alive at the backward's peak: the backward runs in reverse
+ * topological order, and the gradient of a tensor lives from the first rule that contributes to
+ * it until its producer's rule has used it; each step also holds its new input gradients and one
+ * temporary the size of its output gradient (masks, reshapes). The largest sum over the steps,
+ * plus the gradients returned at the layers, is the per-seed peak.
  */
-export function seedChunkSize(pm: PreparedModel, layers: string[], budgetBytes = DEFAULT_BUDGET_BYTES): number {
+export function liveGradientValues(pm: PreparedModel, layers: string[]): number {
   const a = pm.analysis;
   const above = ancestorsOf(a, pm.scores.tensor);
-  const seen = new Set(layers);
-  let elements = 0;
-  for (const n of a.graph.order) {
-    if (!n.inputs.some((i) => seen.has(i))) continue;
-    for (const o of n.outputs) if (o && above.has(o) && a.differentiable(o)) { seen.add(o); elements += a.shape(o).reduce((x, y) => x * y, 1); }
+  const below = new Set(layers);
+  for (const n of a.graph.order) if (n.inputs.some((i) => below.has(i))) for (const o of n.outputs) if (o && a.differentiable(o)) below.add(o);
+  const onPath = (t: string) => below.has(t) && above.has(t);
+  const size = (t: string) => a.shape(t).reduce((x, y) => x * y, 1);
+  const live = new Map<string, number>([[pm.scores.tensor, size(pm.scores.tensor)]]);
+  let liveSum = size(pm.scores.tensor), peak = liveSum;
+  for (const n of [...a.graph.order].reverse()) {
+    const outs = n.outputs.filter((o) => o && live.has(o));
+    if (!outs.length) continue;
+    const fresh = [...new Set(n.inputs.filter((i) => i && onPath(i) && !live.has(i)))];
+    const freshSum = fresh.reduce((s, i) => s + size(i), 0);
+    const temp = Math.max(...outs.map(size));
+    peak = Math.max(peak, liveSum + freshSum + temp);
+    for (const i of fresh) { live.set(i, size(i)); liveSum += size(i); }
+    for (const o of outs) if (!layers.includes(o)) { liveSum -= live.get(o)!; live.delete(o); }
   }
-  for (const l of layers) elements += a.shape(l).reduce((x, y) => x * y, 1);
-  const perSeed = Math.max(1, elements * 4 * 2);
-  return Math.max(3, Math.min(pm.scores.numClasses + 2, Math.floor(budgetBytes / perSeed)));
+  return peak + layers.reduce((s, l) => s + size(l), 0);
+}
+
+/**
+ * Bytes per seed under the budget: the live-gradient peak, times 1.5 for the allocator's slack
+ * (measured on the bench ResNet-18 at stage2: 1.6 MB per seed above the process floor for 514
+ * seeds in one run, against 1.3 MB of live gradients; test/bench/chunk-memory.ts).
+ */
+export function bytesPerSeed(pm: PreparedModel, layers: string[]): number {
+  return Math.max(1, Math.ceil(liveGradientValues(pm, layers) * 4 * 1.5));
+}
+
+/** How many seed rows fit one run under the budget (at least 3: the mismatch sweep's two statistic rows and one seed). */
+export function seedChunkSize(pm: PreparedModel, layers: string[], budgetBytes = DEFAULT_BUDGET_BYTES): number {
+  const perSeed = bytesPerSeed(pm, layers);
+  if (3 * perSeed > budgetBytes) {
+    const mb = (b: number) => `${(b / 2 ** 20).toFixed(1)} MB`;
+    const names = layers.slice(0, 3).map((l) => `'${l}'`).join(', ') + (layers.length > 3 ? ', …' : '');
+    throw new UserError(`explaining ${names} of ${pm.model.path} needs about ${mb(3 * perSeed)} for its smallest batch of seeds, over the memory budget of ${mb(budgetBytes)}`,
+      'pick a deeper layer, a smaller input size, or raise the memory budget');
+  }
+  return Math.floor(budgetBytes / perSeed);
 }

@@ -7,6 +7,7 @@ import { PreparedModel, prepareModel } from '../plan/prepared';
 import { ComposedPlan, composePlan, PlanRequest } from '../plan/compose';
 import { concreteInputDims, probeModel } from './probe';
 import { createSession, floatTensor, ort, runSession, RuntimeOptions, defaultRuntimeOptions } from './runtime';
+import { UserError } from '../errors';
 
 export interface SeedBatch {
   /** [K,R] row-major. */
@@ -57,8 +58,12 @@ export class Engine {
     return c;
   }
 
-  /** One native run of a compiled plan. `extra` feeds accumulators and scales by name. */
-  async run(pm: PreparedModel, cp: CompiledPlan, input: Float32Array, seeds: SeedBatch, fetch: string[], extra: Record<string, ort.Tensor> = {}): Promise<Record<string, ort.Tensor>> {
+  /**
+   * One native run of a compiled plan. `extra` feeds accumulators and scales by name. An abort
+   * rejects at once with 'cancelled'; the native run cannot be interrupted, so it finishes in the
+   * background and its result is dropped.
+   */
+  async run(pm: PreparedModel, cp: CompiledPlan, input: Float32Array, seeds: SeedBatch, fetch: string[], extra: Record<string, ort.Tensor> = {}, signal?: AbortSignal): Promise<Record<string, ort.Tensor>> {
     const R = pm.scores.numClasses;
     const feeds = {
       [pm.model.input.name]: floatTensor(input, pm.inputDims),
@@ -66,7 +71,7 @@ export class Engine {
       [cp.plan.seedCoef]: floatTensor(seeds.coef, [seeds.k, 1]),
       ...extra,
     };
-    return runSession(cp.session, feeds, fetch, `the explanation plan for ${pm.model.path}`);
+    return abortable(runSession(cp.session, feeds, fetch, `the explanation plan for ${pm.model.path}`), signal);
   }
 
   /** Plain forward pass: the scores (logits) of one input. */
@@ -98,6 +103,17 @@ export class Engine {
     this.compiled.clear();
     this.prepared.clear();
   }
+}
+
+function abortable<T>(work: Promise<T>, signal?: AbortSignal): Promise<T> {
+  if (!signal) return work;
+  work.catch(() => undefined); // a dropped run's failure must not surface as an unhandled rejection
+  return new Promise<T>((resolve, reject) => {
+    const onAbort = () => reject(new UserError('cancelled'));
+    if (signal.aborted) return onAbort();
+    signal.addEventListener('abort', onAbort, { once: true });
+    work.then(resolve, reject).finally(() => signal.removeEventListener('abort', onAbort));
+  });
 }
 
 export function oneHotSeeds(R: number, rows: { index?: number; sign?: number; minus?: number; coef?: number }[]): SeedBatch {

@@ -5,6 +5,8 @@ import { UserError } from '../errors';
 export interface RuntimeOptions {
   /** Intra-op threads; 0 lets the runtime decide. */
   threads: number;
+  /** Keep freed buffers in onnxruntime's arena for the next run (faster reuse, memory held). Default off. */
+  arena?: boolean;
 }
 
 export const defaultRuntimeOptions: RuntimeOptions = { threads: 0 };
@@ -18,7 +20,7 @@ export async function createSession(bytes: Uint8Array, what: string, opts: Runti
       interOpNumThreads: 1,
       // The arena keeps peak buffers of large seed batches alive between runs; without it memory
       // returns to the system after each chunk (feasibility study finding).
-      enableCpuMemArena: false,
+      enableCpuMemArena: opts.arena ?? false,
       logSeverityLevel: 3,
     });
   } catch (e) {

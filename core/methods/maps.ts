@@ -7,15 +7,16 @@ import { Engine, SeedBatch } from '../engine/engine';
 import { PreparedModel } from '../plan/prepared';
 import { headKey, HeadKind, PlanPass } from '../plan/compose';
 import { UserError } from '../errors';
-import { floatTensor } from '../engine/runtime';
-import { mulberry32 } from '../metrics/random';
+import { floatTensor, ort } from '../engine/runtime';
 import { seedChunkSize } from '../engine/budget';
+import { ProbeDesign, sweepSeeds } from './mismatch-seeds';
 
 export type MapKind = 'evidence' | 'contrast' | 'mismatch' | 'expectancy' | 'detail' | 'guided-evidence';
 export const MAP_KINDS: readonly MapKind[] = ['evidence', 'contrast', 'mismatch', 'expectancy', 'detail', 'guided-evidence'];
 export type ContrastVariant = 'margin' | 'loss';
 export type MismatchVariant = 'weighted' | 'gradient';
-export type Estimate = { mode: 'exact' } | { mode: 'probe'; k: number; seed: number };
+/** Probe estimates take K seeds of a design (default: mismatch-seeds.ts DEFAULT_PROBE_DESIGN). */
+export type Estimate = { mode: 'exact' } | { mode: 'probe'; k: number; seed: number; design?: ProbeDesign };
 
 export interface Question {
   kind: MapKind;
@@ -44,6 +45,8 @@ export interface ExplainOptions {
   /** Memory budget for one chunk of seeds, bytes. */
   budgetBytes?: number;
   onProgress?: (done: number, total: number) => void;
+  /** Exact mode's seeds: 'auto' (the head's spectral basis when the head is linear, else centred one-hot) or the definition's one-hot sweep. */
+  exactBasis?: 'auto' | 'one-hot';
   signal?: AbortSignal;
 }
 
@@ -103,7 +106,7 @@ export async function explainMaps(engine: Engine, pm: PreparedModel, input: Floa
     const rows = [...gradQs.map((q) => questionSeed(q, R)), ...detailFacts.map((f) => questionSeed({ kind: 'evidence', fact: f }, R))];
     if (!rows.length) rows.push({ base: new Float32Array(R), coef: 0 });
     const fetch = [...cp.plan.outputs.values()].flatMap((o) => [o.raw, o.up]).filter((x): x is string => !!x);
-    const out = await engine.run(pm, cp, input, stack(rows, R), fetch);
+    const out = await engine.run(pm, cp, input, stack(rows, R), fetch, {}, opts.signal);
     const guidedPass = passes.findIndex((p) => p.relu === 'guided');
     for (const layer of layers) {
       if (gradQs.length) {
@@ -143,51 +146,56 @@ export async function explainMaps(engine: Engine, pm: PreparedModel, input: Floa
 }
 
 /**
- * Expectancy-mismatch maps (DESIGN §4): μ from one seed, σ² from the column norms, which exact
- * mode sweeps with all R one-hot seeds and probe mode estimates with K Rademacher seeds
- * (Hutchinson-type estimator; E[vvᵀ] = I). Chunks of seeds accumulate in-graph sums of squares.
+ * Expectancy-mismatch maps (DESIGN §4): μ from one seed, σ² from the column norms of the
+ * centred backward map, swept in chunks whose squared gradients accumulate in-graph
+ * (mismatch-seeds.ts: the head's spectral basis or centred one-hot seeds when exact, K probes
+ * of the chosen design otherwise). Only the last chunk carries the μ and mean rows.
  */
 async function mismatchMaps(engine: Engine, pm: PreparedModel, input: Float32Array, qs: Question[], layers: string[], opts: ExplainOptions): Promise<MapResult[]> {
   const R = pm.scores.numClasses;
   const estimate = opts.estimate ?? { mode: 'exact' };
+  const sweep = sweepSeeds(pm, estimate.mode === 'exact' ? { mode: 'exact', basis: opts.exactBasis } : { ...estimate, seed: estimate.seed ?? DEFAULT_PROBE_SEED });
   const cp = await engine.compile(pm, { passes: [{ relu: 'standard', layers, heads: ['mismatch'] }] });
-  const total = estimate.mode === 'exact' ? R : estimate.k;
-  const chunk = Math.max(1, Math.min(total, seedChunkSize(pm, layers, opts.budgetBytes) - 2));
-  const rand = estimate.mode === 'probe' ? mulberry32(estimate.seed ?? DEFAULT_PROBE_SEED) : undefined;
+  const total = sweep.n;
+  // Runs of at most `rows` seed rows, evenly filled; the last also carries the μ and mean rows.
+  const rows = seedChunkSize(pm, layers, opts.budgetBytes);
+  const runs = Math.max(1, Math.ceil((total + 2) / rows));
+  const chunk = Math.ceil((total + 2) / runs);
   const acc = new Map<string, Float32Array>();
+  const accDims = new Map<string, number[]>();
   for (const l of layers) {
     const info = pm.layers.find((x) => x.id === l)!;
-    const size = (info.kind === 'spatial' ? info.shape[0] : info.shape[1]) * info.grid[0] * info.grid[1];
-    acc.set(l, new Float32Array(size));
+    const dims = info.kind === 'spatial' ? [1, ...info.shape] : [1, info.shape[1], ...info.grid];
+    accDims.set(l, dims);
+    acc.set(l, new Float32Array(dims.reduce((a, b) => a * b, 1)));
   }
   let last: Record<string, { data: unknown; dims: readonly number[] }> = {};
-  for (let done = 0; done < total;) {
+  const one = floatTensor(Float32Array.of(1), []);
+  for (let done = 0; ;) {
     if (opts.signal?.aborted) throw new UserError('cancelled');
-    const n = Math.min(chunk, total - done);
-    const base = new Float32Array((n + 2) * R);
-    const coef = new Float32Array(n + 2);
-    base.fill(-1 / R, 0, R); coef[0] = 1; // μ seed: p − 1/R
-    base.fill(1 / R, R, 2 * R); // Jᵀ1/R
-    for (let i = 0; i < n; i++) {
-      const row = (i + 2) * R;
-      if (rand) for (let r = 0; r < R; r++) base[row + r] = rand() < 0.5 ? -1 : 1;
-      else base[row + done + i] = 1;
+    const final = total - done + 2 <= chunk;
+    const n = final ? total - done : Math.min(chunk, total - done - 1);
+    const lead = final ? 2 : 0;
+    const base = new Float32Array((n + lead) * R);
+    const coef = new Float32Array(n + lead);
+    if (final) {
+      base.fill(-1 / R, 0, R); coef[0] = 1; // μ seed: p − 1/R
+      if (sweep.mean === 'uniform') base.fill(1 / R, R, 2 * R); // Jᵀ1/R, subtracted from the one-hot column norms
     }
+    base.set(sweep.rows.subarray(done * R, (done + n) * R), lead * R);
     done += n;
     const extra: Record<string, ReturnType<typeof floatTensor>> = {};
-    for (const l of layers) {
-      const info = pm.layers.find((x) => x.id === l)!;
-      const dims = info.kind === 'spatial' ? [1, ...info.shape] : [1, info.shape[1], ...info.grid];
-      extra[cp.plan.accInputs.get(l)!] = floatTensor(acc.get(l)!, dims);
-    }
-    // Weight of the accumulated sum: exact → R/seen (1 when complete); probe → 1/seen.
-    extra[cp.plan.accScale!] = floatTensor(Float32Array.of(estimate.mode === 'exact' ? R / done : 1 / done), []);
-    const fetch = layers.flatMap((l) => { const o = cp.plan.outputs.get(headKey(0, 'mismatch', l))!; return [o.acc!, o.raw!, o.up!, o.raw2!, o.up2!]; });
-    last = await engine.run(pm, cp, input, { base, coef, k: n + 2 }, fetch, extra);
+    for (const l of layers) extra[cp.plan.accInputs.get(l)!] = floatTensor(acc.get(l)!, accDims.get(l)!);
+    extra[cp.plan.accScale!] = one; // every seed row already carries the square root of its weight
+    extra[cp.plan.sweepFrom!] = new ort.Tensor('int64', BigInt64Array.of(BigInt(lead)), [1]);
+    const fetch = layers.flatMap((l) => { const o = cp.plan.outputs.get(headKey(0, 'mismatch', l))!; return final ? [o.acc!, o.raw!, o.up!, o.raw2!, o.up2!] : [o.acc!]; });
+    last = await engine.run(pm, cp, input, { base, coef, k: n + lead }, fetch, extra, opts.signal);
     for (const l of layers) acc.set(l, Float32Array.from(last[cp.plan.outputs.get(headKey(0, 'mismatch', l))!.acc!].data as Float32Array));
     opts.onProgress?.(done, total);
+    if (final) break;
   }
   const out: MapResult[] = [];
+  const described = estimate.mode === 'probe' ? { ...estimate, seed: estimate.seed ?? DEFAULT_PROBE_SEED, design: sweep.used as ProbeDesign } : estimate;
   for (const q of qs) for (const l of layers) {
     const o = cp.plan.outputs.get(headKey(0, 'mismatch', l))!;
     const gradient = (q.mismatch ?? 'weighted') === 'gradient';
@@ -197,7 +205,7 @@ async function mismatchMaps(engine: Engine, pm: PreparedModel, input: Float32Arr
     out.push({
       question: q, layer: l,
       raw: slice(last[gradient ? o.raw2! : o.raw!], 0), up: slice(last[gradient ? o.up2! : o.up!], 0),
-      estimate: { ...estimate, seeds: total } as MapResult['estimate'], note,
+      estimate: { ...described, seeds: total } as MapResult['estimate'], note,
     });
   }
   return out;

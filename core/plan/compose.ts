@@ -39,6 +39,8 @@ export interface ComposedPlan {
   /** Mismatch accumulators to feed ([1,C,H,W] per layer) and the scalar weight of the sum. */
   accInputs: Map<string, string>;
   accScale?: string;
+  /** int64 [1] input: the first seed row summed into the accumulators (rows before it are the μ and mean rows). */
+  sweepFrom?: string;
   /** Output carrying the scores (logits) of the forward. */
   scoresOutput: string;
   outputs: Map<string, HeadOutputs>; // key `${pass}|${head}|${layer}`
@@ -47,6 +49,7 @@ export interface ComposedPlan {
 export const SEED_BASE = 'ff_seed_base';
 export const SEED_COEF = 'ff_seed_coef';
 export const ACC_SCALE = 'ff_acc_scale';
+export const SWEEP_FROM = 'ff_sweep_from';
 
 export function headKey(pass: number, head: HeadKind, layer: string): string {
   return `${pass}|${head}|${layer}`;
@@ -71,6 +74,7 @@ export function composePlan(pm: PreparedModel, req: PlanRequest): ComposedPlan {
   const graphOutputs: string[] = [];
   const accInputs = new Map<string, string>();
   let accScale: string | undefined;
+  let sweepFrom: string | undefined;
   const forwardOutputs = new Map<number, Map<number, string>>();
 
   req.passes.forEach((pass, pi) => {
@@ -116,7 +120,7 @@ export function composePlan(pm: PreparedModel, req: PlanRequest): ComposedPlan {
             const variance = b.op1('ReduceMean', [b.op1('Mul', [d, d]), b.constI64([1])], { keepdims: { i: 1 } });
             Object.assign(out, emitMap(b, b.op1('Mul', [b.op1('Abs', [mean]), variance]), name, layer, inputHW));
           } else if (head === 'mismatch') {
-            Object.assign(out, mismatchHead(b, grid, layer, R, name, inputHW, accInputs, li, () => (accScale ??= ACC_SCALE)));
+            Object.assign(out, mismatchHead(b, grid, layer, R, name, inputHW, accInputs, li, () => (accScale ??= ACC_SCALE), () => (sweepFrom ??= SWEEP_FROM)));
           }
         }
         outputs.set(headKey(pi, head, layerId), out);
@@ -129,9 +133,9 @@ export function composePlan(pm: PreparedModel, req: PlanRequest): ComposedPlan {
   const scoresOutput = 'ff_out/scores';
   b.opTo('Identity', [pm.scores.tensor], [scoresOutput]);
   graphOutputs.push(scoresOutput);
-  const model = assemble(pm, b, graphOutputs, forwardOutputs, accInputs, accScale);
+  const model = assemble(pm, b, graphOutputs, forwardOutputs, accInputs, accScale, sweepFrom);
   const key = JSON.stringify(req);
-  return { bytes: model, key, seedBase: SEED_BASE, seedCoef: SEED_COEF, accInputs, accScale, scoresOutput, outputs };
+  return { bytes: model, key, seedBase: SEED_BASE, seedCoef: SEED_COEF, accInputs, accScale, sweepFrom, scoresOutput, outputs };
 }
 
 export function isNhwc(inputDims: number[]): boolean {
@@ -165,19 +169,21 @@ function emitMap(b: GraphBuilder, map: string, name: (w: string) => string, laye
 }
 
 /**
- * Expectancy-mismatch statistics (DESIGN §4). Seed rows: 0 → μ = Jᵀ(p − 1/R), 1 → Jᵀ(1/R),
- * 2.. → sweep seeds whose squared gradients are summed into the accumulator. With w the weight
- * of the sum (1 for an exact one-hot or basis sweep, 1/K for K Rademacher probes), the column
- * norms are Σ_r (Jᵀe_r)² ≈ w·acc and σ² = (1/R)·Σ_r (Jᵀe_r)² − (Jᵀ1/R)².
+ * Expectancy-mismatch statistics (DESIGN §4). Seed rows: 0 → μ = Jᵀ(p − 1/R), 1 → Jᵀm with m the
+ * mean seed, rows from `sweepFrom` on → sweep seeds whose squared gradients are summed into the
+ * accumulator (a run that only accumulates sets sweepFrom 0, so every row is a sweep seed). With
+ * w the weight of the sum, σ² = (1/R)·w·acc − (Jᵀm)²: one-hot seeds e_r with m = 1/R (the
+ * definition), or seeds whose outer products sum to the centring projector I − 11ᵀ/R (centred
+ * one-hot, the head's spectral basis, centred probes) with m = 0.
  * Outputs: `weighted` Σ_k|μ·σ²·A| and `gradient` Σ_k|μ|·σ² (channel reductions: our own choice).
  */
 function mismatchHead(b: GraphBuilder, grid: { a: string; g?: string }, layer: LayerInfo, R: number, name: (w: string) => string,
-  inputHW: number[], accInputs: Map<string, string>, li: number, scale: () => string): HeadOutputs {
+  inputHW: number[], accInputs: Map<string, string>, li: number, scale: () => string, sweepFrom: () => string): HeadOutputs {
   const g = grid.g!;
   const big = 2 ** 53;
   const row = (i: number) => b.op1('Squeeze', [b.op1('Slice', [g, b.constI64([i]), b.constI64([i + 1]), b.constI64([0])]), b.constI64([0])]);
   const mu = row(0), mean = row(1);
-  const sweep = b.op1('Slice', [g, b.constI64([2]), b.constI64([big]), b.constI64([0])]);
+  const sweep = b.op1('Slice', [g, sweepFrom(), b.constI64([big]), b.constI64([0])]);
   const sq = b.op1('ReduceSum', [b.op1('Mul', [sweep, sweep]), b.constI64([0])], { keepdims: { i: 0 } });
   const accIn = `ff_acc_${li}`;
   accInputs.set(layer.id, accIn);
@@ -191,7 +197,7 @@ function mismatchHead(b: GraphBuilder, grid: { a: string; g?: string }, layer: L
 }
 
 function assemble(pm: PreparedModel, b: GraphBuilder, outputs: string[], forwardOutputs: Map<number, Map<number, string>>,
-  accInputs: Map<string, string>, accScale: string | undefined): Uint8Array {
+  accInputs: Map<string, string>, accScale: string | undefined, sweepFrom: string | undefined): Uint8Array {
   const original = pm.model.proto;
   const nodes = pm.nodes.map((n, i) => {
     const extra = forwardOutputs.get(i);
@@ -208,6 +214,7 @@ function assemble(pm: PreparedModel, b: GraphBuilder, outputs: string[], forward
     f(SEED_COEF, ['K', 1]),
     ...[...accInputs].map(([layer, n]) => f(n, pm.analysis.shape(layer).length === 4 ? [1, ...pm.analysis.shape(layer).slice(1)] : gridShape(pm, layer))),
     ...(accScale ? [f(accScale, [])] : []),
+    ...(sweepFrom ? [{ name: sweepFrom, type: { tensor_type: { elem_type: TensorType.INT64, shape: { dim: [{ dim_value: 1 }] } } } }] : []),
   ];
   const model: ModelProto = {
     ...original,

@@ -10,6 +10,7 @@ import { gradientsAt, lossSeed } from '../../../core/methods/gradient';
 import { loadModel } from '../../../core/model/load';
 import { tensorValues } from '../../../core/model/tensor';
 import { readNpy } from '../../../core/io/npy';
+import { bytesPerSeed } from '../../../core/engine/budget';
 import { FIXTURES, relL2, toNumbers } from '../../helpers';
 
 const RESNET = path.join(FIXTURES, 'arch', 'resnet');
@@ -90,19 +91,19 @@ describe('map kinds vs their formulas', function () {
       weighted[i] += Math.abs(mu[j] * v[j] * A[j]);
       gradient[i] += Math.abs(mu[j]) * v[j];
     }
-    const maps = await explainMaps(engine, pm, x, [{ kind: 'mismatch', fact: 0 }, { kind: 'mismatch', fact: 0, mismatch: 'gradient' }], [layer], { budgetBytes: 64 * 1024 });
+    const maps = await explainMaps(engine, pm, x, [{ kind: 'mismatch', fact: 0 }, { kind: 'mismatch', fact: 0, mismatch: 'gradient' }], [layer], { budgetBytes: 4 * bytesPerSeed(pm, [layer]) }); // runs of 4 rows: several chunks
     assert.ok(relL2(maps[0].raw.data, weighted) < 1e-4, `weighted ${relL2(maps[0].raw.data, weighted)}`);
     assert.ok(relL2(maps[1].raw.data, gradient) < 1e-4, `gradient ${relL2(maps[1].raw.data, gradient)}`);
   });
 
-  it('probe estimate: converges to exact and its error falls roughly like 1/√K (Hutchinson-type estimator)', async () => {
+  for (const design of ['rademacher', 'centered'] as const) it(`probe estimate (${design}): converges to exact and its error falls roughly like 1/√K (Hutchinson-type estimator)`, async () => {
     const pm = await prepare();
     const layer = 'stage2';
     const exact = (await explainMaps(engine, pm, x, [{ kind: 'mismatch', fact: 0, mismatch: 'gradient' }], [layer]))[0].raw.data;
     const err = async (k: number) => {
       let total = 0;
       for (let seed = 1; seed <= 6; seed++) {
-        const m = await explainMaps(engine, pm, x, [{ kind: 'mismatch', fact: 0, mismatch: 'gradient' }], [layer], { estimate: { mode: 'probe', k, seed } });
+        const m = await explainMaps(engine, pm, x, [{ kind: 'mismatch', fact: 0, mismatch: 'gradient' }], [layer], { estimate: { mode: 'probe', k, seed, design } });
         total += relL2(m[0].raw.data, exact);
       }
       return total / 6;
