@@ -157,6 +157,11 @@ export class Panel {
     link.post({ type: 'ready', version: PROTOCOL_VERSION });
   }
 
+  /** The question on screen, for views beside the panel (the trust checks). */
+  currentQuestion(): { layer?: string; fact: number; foil?: number } {
+    return { layer: this.layerId, fact: this.sel.fact, foil: this.sel.foil };
+  }
+
   // ---- messages ---------------------------------------------------------------------------------
 
   private onMessage(m: ToWebview): void {

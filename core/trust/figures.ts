@@ -88,11 +88,12 @@ export function driftCharts(r: TrustReport): LineChartSpec[] {
     const max = Math.max(...st.map((s) => s.strength));
     const series: Series[] = r.kinds.map((k) => ({ name: KIND_NAMES[k], slot: slotOf(k), points: [[0, 1] as [number, number], ...st.map((s) => [s.strength, s.drift[k]?.spearman ?? NaN] as [number, number])] }));
     series.push({ name: 'p(fact)', slot: 'base', dashed: true, points: [[0, r.p_fact], ...st.map((s) => [s.strength, s.p_fact] as [number, number])] });
+    const negative = series.some((x) => x.points.some((q) => q[1] < -0.01));
     return {
       title: p === 'blur' ? 'Under blur' : 'Under noise', caption: 'rank corr. with the clean map',
       xLabel: p === 'blur' ? 'blur σ (input px)' : 'noise σ (× input sd)', yLabel: 'Spearman',
       x: { min: 0, max, ticks: [0, ...st.map((s) => s.strength)].map((at) => ({ at, label: String(at) })) },
-      y: { min: 0, max: 1, ticks: UNIT_TICKS }, series,
+      y: negative ? { min: -1, max: 1, ticks: [-1, -0.5, 0, 0.5, 1] } : { min: 0, max: 1, ticks: UNIT_TICKS }, series,
     };
   };
   return [make('blur'), make('noise')].filter((c): c is LineChartSpec => !!c);
