@@ -22,7 +22,7 @@ export async function openModel(engine: Engine, modelPath: string | undefined, l
   if (!modelPath) throw new UserError('missing --model <model.onnx>');
   const model = loadModel(modelPath);
   const sidecar = await readSidecar(modelPath);
-  const spec = resolvePreprocessSpec(model.input.dims, sidecar?.preprocess, sidecar ? `${modelPath} settings` : 'model settings');
+  const spec = resolvePreprocessSpec(model.input.dims, sidecar?.preprocess, sidecar ? `${modelPath} settings` : 'model settings', `${modelPath}: input '${model.input.name}'`);
   const dims = spec.layout === 'NCHW' ? [1, spec.channels === 'GRAY' ? 1 : 3, spec.size[0], spec.size[1]] : [1, spec.size[0], spec.size[1], spec.channels === 'GRAY' ? 1 : 3];
   const pm = await engine.prepare(model, dims);
   const labels = await loadLabels({ modelPath, labelsPath, sidecar, metadataProps: model.metadata, numClasses: pm.scores.numClasses });

@@ -11,6 +11,7 @@ import { encodeNpy } from '../io/npy';
 import { writeFileAtomic } from '../io/atomic';
 import { explainCommand } from './explain';
 import { checkCommand } from './check';
+import { noLayerReason } from '../model/layers';
 
 const USAGE = `usage:
   factfoil layers  <model.onnx> [--json]
@@ -64,6 +65,7 @@ export async function main(argv: string[]): Promise<number> {
 
 async function layersCommand(engine: Engine, args: CliArgs): Promise<number> {
   const ctx = await openModel(engine, args.positionals[0] ?? args.values.model, args.values.labels);
+  if (!ctx.pm.layers.length) throw noLayerReason(ctx.pm.analysis, ctx.pm.scores.tensor, ctx.pm.layers, ctx.pm.model.path);
   const layers = ctx.pm.layers.map((l, index) => ({
     index, id: l.id, shape: l.shape, kind: l.kind, grid: l.grid, stage: l.isStage,
     explainable: !l.blockedBy, ...(l.blockedBy ? { blockedBy: l.blockedBy } : {}),
@@ -113,8 +115,13 @@ async function gradCommand(engine: Engine, args: CliArgs): Promise<number> {
 /** --layer tensor|index|last|stages|all → layer ids. */
 export function resolveLayer(pm: import('../plan/prepared').PreparedModel, arg: string, allowInput = false): string[] {
   const explainable = pm.layers.filter((l) => !l.blockedBy);
+  if (['all', 'stages', 'last'].includes(arg) && !explainable.length) throw noLayerReason(pm.analysis, pm.scores.tensor, pm.layers, pm.model.path);
   if (arg === 'all') return explainable.map((l) => l.id);
-  if (arg === 'stages') return explainable.filter((l) => l.isStage).map((l) => l.id);
+  if (arg === 'stages') {
+    const stages = explainable.filter((l) => l.isStage).map((l) => l.id);
+    if (!stages.length) throw new UserError(`no stage of ${pm.model.path} can be explained`, 'pick a layer with --layer (run `factfoil layers <model>` to list them)');
+    return stages;
+  }
   if (arg === 'last') return explainable.slice(-1).map((l) => l.id);
   if (allowInput && arg === pm.model.input.name) return [arg];
   if (/^\d+$/.test(arg) && pm.layers[Number(arg)]) return [pm.layers[Number(arg)].id];

@@ -15,6 +15,10 @@ export interface DecodedImage {
   /** Container format: 'png', 'jpeg', 'webp', 'tiff', 'gif', 'avif'. */
   format: string;
   path: string;
+  /** Frames or pages in the file (absent: 1); only the first is decoded. */
+  frames?: number;
+  /** Said to the user when the decode made a choice for them (e.g. the first of several frames). */
+  note?: string;
 }
 
 export interface DecodeOptions {
@@ -48,10 +52,10 @@ export async function decodeImage(file: string, opts: DecodeOptions = {}): Promi
   const head = await readHead(file);
   refuseVector(file, head);
 
-  const format = await probeFormat(file, maxPixels);
+  const { format, frames } = await probeFormat(file, maxPixels);
   let out: { data: Buffer; info: sharp.OutputInfo };
   try {
-    out = await openWithSharp(file, maxPixels)
+    out = await openWithSharp(file, maxPixels, format)
       .rotate() // applies and strips the EXIF orientation
       .flatten({ background: { r: background[0], g: background[1], b: background[2] } })
       .toColourspace('srgb') // CMYK (with its ICC profile when present), grey, 16-bit → 8-bit sRGB
@@ -68,6 +72,8 @@ export async function decodeImage(file: string, opts: DecodeOptions = {}): Promi
     rgb: new Uint8Array(out.data.buffer, out.data.byteOffset, width * height * 3),
     format,
     path: file,
+    frames,
+    ...(frames > 1 ? { note: `${file} holds ${frames} ${format === 'tiff' ? 'pages' : 'frames'}; the first is used` } : {}),
   };
 }
 
@@ -79,10 +85,10 @@ export async function decodeImage(file: string, opts: DecodeOptions = {}): Promi
 export async function decodeMask(file: string, width: number, height: number): Promise<Uint8Array> {
   const head = await readHead(file);
   refuseVector(file, head);
-  await probeFormat(file, DEFAULT_MAX_PIXELS);
+  const { format } = await probeFormat(file, DEFAULT_MAX_PIXELS);
   let out: { data: Buffer; info: sharp.OutputInfo };
   try {
-    out = await openWithSharp(file, DEFAULT_MAX_PIXELS)
+    out = await openWithSharp(file, DEFAULT_MAX_PIXELS, format)
       .rotate()
       .flatten({ background: { r: 0, g: 0, b: 0 } })
       .toColourspace('b-w')
@@ -113,14 +119,16 @@ export function resizeMaskNearest(src: Uint8Array, sw: number, sh: number, dw: n
   return out;
 }
 
-function openWithSharp(file: string, maxPixels: number): sharp.Sharp {
+function openWithSharp(file: string, maxPixels: number, format?: string): sharp.Sharp {
   // failOn 'truncated': refuse cut-off files but accept the harmless warnings many cameras'
-  // JPEGs trigger. pages: 1 reads only the first frame of a GIF, WebP or TIFF.
-  return sharp(file, { limitInputPixels: maxPixels, failOn: 'truncated', pages: 1, page: 0 });
+  // JPEGs trigger. TIFF needs 'error': a TIFF cut before its JPEG tables otherwise decodes to
+  // wrong pixels without complaint (libtiff reports it as an error that 'truncated' lets pass;
+  // found by the bad-image suite). pages: 1 reads only the first frame of a GIF, WebP or TIFF.
+  return sharp(file, { limitInputPixels: maxPixels, failOn: format === 'tiff' ? 'error' : 'truncated', pages: 1, page: 0 });
 }
 
 /** Reads the header only (no pixel decode), checks the format and the pixel limit. */
-async function probeFormat(file: string, maxPixels: number): Promise<string> {
+async function probeFormat(file: string, maxPixels: number): Promise<{ format: string; frames: number }> {
   let meta: sharp.Metadata;
   try {
     meta = await sharp(file, { limitInputPixels: false, pages: 1 }).metadata();
@@ -144,7 +152,7 @@ async function probeFormat(file: string, maxPixels: number): Promise<string> {
       'scale the image down first, or raise the pixel limit',
     );
   }
-  return format === 'heif' ? 'avif' : format;
+  return { format: format === 'heif' ? 'avif' : format, frames: Math.max(1, meta.pages ?? 1) };
 }
 
 async function readHead(file: string): Promise<Buffer> {

@@ -133,6 +133,10 @@ export async function writeUniqueFiles(
   exts: readonly string[],
   contents: (chosen: UniquePaths) => (Uint8Array | string)[] | Promise<(Uint8Array | string)[]>,
 ): Promise<UniquePaths> {
+  // Stems are built from sanitized parts; this guard keeps any other caller inside `dir` too.
+  const home = path.resolve(dir);
+  const escapes = exts.find((ext) => path.dirname(path.resolve(home, stem + ext)) !== home);
+  if (escapes !== undefined) throw new UserError(`will not write ${stem}${escapes}: the name leads out of ${home}`, 'use a plain file name');
   for (let attempt = 0; attempt < 20; attempt++) {
     const chosen = uniquePaths(dir, stem, exts);
     const data = await contents(chosen);

@@ -107,8 +107,13 @@ function validateSidecarPreprocess(value: unknown, file: string): SidecarPreproc
  * the sidecar's preset, then its explicit fields. A size that contradicts a fixed model input
  * size is an error, since the model would refuse the tensor.
  */
-export function resolvePreprocessSpec(inputDims: readonly (number | string | null | undefined)[], given: SidecarPreprocess | undefined, where = 'model settings'): PreprocessSpec {
-  const base = specFromInputShape(inputDims);
+export function resolvePreprocessSpec(inputDims: readonly (number | string | null | undefined)[], given: SidecarPreprocess | undefined, where = 'model settings', inputWhere = 'the model input'): PreprocessSpec {
+  // A symbolic channel axis is taken from the settings' layout, so the settings can resolve it.
+  const channelAxis = given?.layout === 'NCHW' ? 1 : given?.layout === 'NHWC' ? 3 : -1;
+  const dims = channelAxis > 0 && inputDims.length === 4 && typeof inputDims[channelAxis] !== 'number'
+    ? inputDims.map((d, i) => (i === channelAxis ? (given?.channels === 'GRAY' ? 1 : 3) : d))
+    : inputDims;
+  const base = specFromInputShape(dims, inputWhere);
   if (!given) return base;
   const { preset, ...fields } = given;
   const spec: PreprocessSpec = { ...base, ...(preset ? clonePreset(preset) : {}), ...fields };
@@ -133,10 +138,14 @@ function clonePreset(name: PresetName) {
   return { ...p, mean: [...p.mean], std: [...p.std] };
 }
 
-/** Writes the sidecar (validated first), replacing the previous one atomically. */
+/**
+ * Writes the sidecar (validated first), replacing the previous one atomically. A previous one
+ * that is malformed is the user's hand-edited file: reported (readSidecar's error), not replaced.
+ */
 export async function writeSidecar(modelPath: string, sidecar: Sidecar): Promise<string> {
   const file = sidecarPath(modelPath);
   validateSidecar(sidecar, file);
+  await readSidecar(modelPath);
   await writeFileAtomicReplace(file, JSON.stringify(sidecar, null, 2) + '\n');
   return file;
 }

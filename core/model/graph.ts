@@ -70,10 +70,12 @@ export function indexGraph(graph: GraphProto, modelPath: string): GraphIndex {
   }));
   const producer = new Map<string, GraphNode>();
   const consumers = new Map<string, GraphNode[]>();
+  const inputNames = new Set((graph.input ?? []).map((v) => v.name ?? ''));
   for (const n of nodes) {
+    if (!n.opType) throw new UserError(`${modelPath}: node '${n.name}' has no op type`, 'the model is not valid ONNX; re-export it');
     for (const o of n.outputs) {
       if (!o) continue;
-      if (producer.has(o) || initializers.has(o)) {
+      if (producer.has(o) || initializers.has(o) || inputNames.has(o)) {
         throw new UserError(`${modelPath}: tensor '${o}' is produced twice (by ${nodeLabel(n)})`, 'the model is not valid ONNX; re-export it');
       }
       producer.set(o, n);
@@ -88,6 +90,12 @@ export function indexGraph(graph: GraphProto, modelPath: string): GraphIndex {
   const inputs = (graph.input ?? []).filter((v) => !initializers.has(v.name ?? ''));
   const known = new Set<string>([...initializers.keys(), ...inputs.map((v) => v.name ?? '')]);
   const order = topologicalOrder(nodes, producer, known, modelPath);
+  for (const v of graph.output ?? []) {
+    const name = v.name ?? '';
+    if (!producer.has(name) && !known.has(name)) {
+      throw new UserError(`${modelPath}: graph output '${name}' is produced by no node`, 'the model is not valid ONNX; re-export it');
+    }
+  }
   return { nodes, order, producer, consumers, initializers, inputs, outputs: graph.output ?? [] };
 }
 

@@ -4,8 +4,9 @@
  * algorithm, no name patterns: a tensor is a cut point iff it dominates the scores.
  */
 import { ModelAnalysis } from './analysis';
-import { GraphNode } from './graph';
+import { GraphNode, nodeLabel } from './graph';
 import { hasGradientRule } from '../autodiff/rules';
+import { UserError } from '../errors';
 
 export interface LayerInfo {
   /** The ONNX tensor name. */
@@ -151,4 +152,28 @@ export function pickStages(a: ModelAnalysis, cuts: string[]): string[] {
     i = j + 1;
   }
   return [...new Set(out)];
+}
+
+/** Ops of quantized graphs (QDQ and QOperator forms): their integer tensors carry no gradient. */
+const QUANTIZED_OPS = /^(QuantizeLinear|DequantizeLinear|DynamicQuantizeLinear|QLinear\w+|ConvInteger|MatMulInteger|QGemm|QAttention|DynamicQuantize\w*)$/;
+
+/**
+ * Why a model offers no explainable layer, as the error to show: a quantized graph, every layer
+ * cut off by an op without a gradient rule, or no tensor with a spatial grid at all.
+ */
+export function noLayerReason(a: ModelAnalysis, scores: string, layers: LayerInfo[], modelPath: string): UserError {
+  const quantized = a.graph.order.find((n) => QUANTIZED_OPS.test(n.opType));
+  if (quantized) {
+    return new UserError(`${modelPath} is quantized: gradients do not pass through ${nodeLabel(quantized)} and the integer tensors around it`, 'explain the float model exported before quantization');
+  }
+  const blocked = layers.find((l) => l.blockedBy);
+  if (blocked) {
+    return new UserError(`no layer of ${modelPath} can be explained: ${blocked.blockedBy!.opType} node '${blocked.blockedBy!.node}' on the way to the scores has no gradient rule`, 'see the README for the ops covered');
+  }
+  const above = ancestorsOf(a, scores);
+  const onPath = [...new Set(a.graph.order.filter((n) => n.outputs.some((o) => above.has(o))).map((n) => n.opType))];
+  return new UserError(
+    `${modelPath} has no layer with a spatial grid between its input and its scores (ops: ${onPath.slice(0, 8).join(', ') || 'none'})`,
+    'maps need an intermediate tensor [1,C,H,W] with H,W > 1 or a square grid of tokens, as in convolutional and vision-transformer classifiers',
+  );
 }

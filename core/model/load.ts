@@ -3,12 +3,24 @@ import { createHash } from 'node:crypto';
 import { readFileSync, statSync, realpathSync } from 'node:fs';
 import * as path from 'node:path';
 import { UserError } from '../errors';
-import { decodeModelProto, ModelProto, TensorProto, TensorType, ValueInfoProto } from './proto';
+import { decodeModelProto, elemTypeName, ModelProto, NodeProto, TensorProto, TensorType, ValueInfoProto } from './proto';
 import { GraphIndex, indexGraph } from './graph';
+import { checkTensorPayload } from './tensor';
+import { sniffFileType } from './sniff';
 
 /** IR and opset range this build understands (ORT 1.30 runs more; older opsets are upgraded to 18 for differentiation). */
 export const IR_RANGE = [3, 10] as const;
 export const OPSET_RANGE = [11, 21] as const;
+
+/**
+ * Most values a model input may hold: 2^26 float32 values (256 MB), e.g. 3×4096×4096. Classifier
+ * inputs are far smaller; beyond this the probe's input alone would strain a laptop. A rule of
+ * thumb, no source.
+ */
+export const MAX_INPUT_VALUES = 2 ** 26;
+
+/** Op domains onnxruntime's CPU build knows besides the default one (from its docs, from memory). */
+const RUNTIME_DOMAINS = new Set(['', 'ai.onnx', 'ai.onnx.ml', 'com.microsoft', 'com.microsoft.nchwc', 'ai.onnx.preview.training']);
 
 export interface InputSpec {
   name: string;
@@ -39,13 +51,18 @@ export function loadModel(modelPath: string, opts: { anyInput?: boolean } = {}):
     bytes = readFileSync(modelPath);
   } catch (e) {
     if (e instanceof UserError) throw e;
-    throw new UserError(`cannot read model ${modelPath}: ${(e as NodeJS.ErrnoException).code ?? (e as Error).message}`, 'check the path');
+    const code = (e as NodeJS.ErrnoException).code;
+    const why = code === 'ENOENT' ? 'no such file' : code === 'EACCES' || code === 'EPERM' ? 'permission denied' : code ?? (e as Error).message;
+    throw new UserError(`cannot read model ${modelPath}: ${why}`, 'check the path');
   }
   return modelFromBytes(bytes, modelPath, opts);
 }
 
 export function modelFromBytes(bytes: Uint8Array, modelPath: string, opts: { anyInput?: boolean } = {}): LoadedModel {
   const sha256 = createHash('sha256').update(bytes).digest('hex');
+  if (bytes.length === 0) throw new UserError(`${modelPath} is empty (0 bytes)`, 'the export or copy did not finish; export the model again');
+  const other = sniffFileType(bytes);
+  if (other) throw new UserError(`${modelPath} is ${other}, not an ONNX model`, 'export the model to ONNX (e.g. torch.onnx.export) and open the .onnx file');
   let proto: ModelProto;
   try {
     proto = decodeModelProto(bytes);
@@ -60,17 +77,47 @@ export function modelFromBytes(bytes: Uint8Array, modelPath: string, opts: { any
     throw new UserError(`${modelPath}: ONNX IR version ${irVersion} is outside the supported ${IR_RANGE[0]}–${IR_RANGE[1]}`, 'export with an IR version in that range');
   }
   const opset = (proto.opset_import ?? []).find((o) => !o.domain || o.domain === 'ai.onnx')?.version ?? 0;
+  if (opset === 0) throw new UserError(`${modelPath} imports no default-domain ONNX opset`, `re-export with opset_version between ${OPSET_RANGE[0]} and ${OPSET_RANGE[1]} (17 is a good choice)`);
   if (opset < OPSET_RANGE[0] || opset > OPSET_RANGE[1]) {
     throw new UserError(`${modelPath}: default-domain opset ${opset} is outside the supported ${OPSET_RANGE[0]}–${OPSET_RANGE[1]}`, `re-export with opset_version between ${OPSET_RANGE[0]} and ${OPSET_RANGE[1]} (17 is a good choice)`);
   }
+  dropTrailingEmptyInputs(proto.graph.node ?? []);
   inlineExternalData(proto.graph.initializer ?? [], modelPath);
+  for (const t of proto.graph.initializer ?? []) checkTensorPayload(t, `${modelPath}: initializer '${t.name ?? ''}'`);
+  refuseCustomOps(proto, modelPath);
   const graph = indexGraph(proto.graph, modelPath);
+  for (const n of graph.nodes) {
+    for (const [k, v] of n.attrs) {
+      if (v && typeof v === 'object' && !Array.isArray(v) && 'data_type' in v) checkTensorPayload(v, `${modelPath}: attribute '${k}' of ${n.opType} node '${n.name}'`);
+    }
+  }
   const input = pickImageInput(graph.inputs, modelPath, opts.anyInput ?? false);
   const output = graph.outputs[0]?.name;
   if (!output) throw new UserError(`${modelPath}: the graph declares no output`, 'the model is not valid ONNX; re-export it');
   const metadata: Record<string, string> = {};
   for (const p of proto.metadata_props ?? []) if (p.key) metadata[p.key] = p.value ?? '';
   return { path: modelPath, sha256, proto, graph, irVersion, opset, input, output, metadata };
+}
+
+/**
+ * An omitted optional input may be written as '' or left out; trailing ones are left out here.
+ * Same graph by the ONNX spec, and it avoids an onnxruntime 1.30 crash (SIGSEGV in its extended
+ * graph optimizations) on a LayerNormalization whose bias is given as '' (found by test/fuzz).
+ */
+function dropTrailingEmptyInputs(nodes: NodeProto[]): void {
+  for (const n of nodes) {
+    const inputs = n.input ?? [];
+    while (inputs.length && !inputs[inputs.length - 1]) inputs.pop();
+  }
+}
+
+/** Nodes of a domain onnxruntime does not know and the model defines no function for: custom ops, which need their library. */
+function refuseCustomOps(proto: ModelProto, modelPath: string): void {
+  const functions = new Set(((proto.functions ?? []) as { domain?: string; name?: string }[]).map((f) => `${f.domain ?? ''}|${f.name ?? ''}`));
+  const n = (proto.graph?.node ?? []).find((x) => !RUNTIME_DOMAINS.has(x.domain ?? '') && !functions.has(`${x.domain}|${x.op_type}`));
+  if (n) {
+    throw new UserError(`${modelPath}: ${n.op_type} node '${n.name || '(unnamed)'}' is a custom op of domain '${n.domain}', which needs its own runtime library`, 'export the model with standard ONNX ops only');
+  }
 }
 
 function valueDims(v: ValueInfoProto): (number | string)[] {
@@ -87,10 +134,21 @@ function pickImageInput(inputs: ValueInfoProto[], modelPath: string, anyRank: bo
   if (candidates.length !== 1) {
     const v = inputs[0];
     const t = v.type?.tensor_type?.elem_type;
-    throw new UserError(`${modelPath}: input '${v.name}' is not a float image tensor (type ${t}, shape [${valueDims(v).join(',')}])`, 'the input must be float32 NCHW [1,C,H,W] or NHWC [1,H,W,C]');
+    throw new UserError(`${modelPath}: input '${v.name}' is not a float image tensor (${elemTypeName(t)}, shape [${valueDims(v).join(',')}])`, 'the input must be float32 NCHW [1,C,H,W] or NHWC [1,H,W,C]');
   }
   const v = candidates[0];
-  return { name: v.name ?? '', dims: valueDims(v), elemType: TensorType.FLOAT };
+  const dims = valueDims(v);
+  const shape = `[${dims.join(',')}]`;
+  dims.forEach((d, i) => {
+    if (typeof d === 'number' && d <= 0) {
+      throw new UserError(`${modelPath}: input '${v.name}' ${shape}: dimension ${i} is ${d}`, 'a dimension must be positive or a named dynamic axis; re-export the model');
+    }
+  });
+  const values = dims.reduce<number>((a, d) => a * (typeof d === 'number' ? d : 1), 1);
+  if (values > MAX_INPUT_VALUES) {
+    throw new UserError(`${modelPath}: input '${v.name}' ${shape} is too large (${values.toExponential(2)} values, over ${MAX_INPUT_VALUES.toExponential(2)})`, 'export the model at the image size it was trained for');
+  }
+  return { name: v.name ?? '', dims, elemType: TensorType.FLOAT };
 }
 
 /** Loads external initializer data into raw_data so the model can be handed to the runtime as bytes. */

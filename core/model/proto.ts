@@ -76,6 +76,23 @@ export const TensorType = {
   FLOAT16: 10, DOUBLE: 11, UINT32: 12, UINT64: 13, BFLOAT16: 16,
 } as const;
 
+const TYPE_NAMES: Record<number, string> = {
+  1: 'float32', 2: 'uint8', 3: 'int8', 4: 'uint16', 5: 'int16', 6: 'int32', 7: 'int64', 8: 'string', 9: 'bool',
+  10: 'float16', 11: 'float64', 12: 'uint32', 13: 'uint64', 14: 'complex64', 15: 'complex128', 16: 'bfloat16',
+  17: 'float8e4m3fn', 18: 'float8e4m3fnuz', 19: 'float8e5m2', 20: 'float8e5m2fnuz', 21: 'uint4', 22: 'int4', 23: 'float4e2m1',
+};
+
+/** The ONNX TensorProto.DataType as a readable name (onnx.proto enum), e.g. 1 → 'float32'. */
+export function elemTypeName(t: number | undefined): string {
+  return t !== undefined && TYPE_NAMES[t] ? TYPE_NAMES[t] : `unknown type ${t ?? 'unset'}`;
+}
+
+/** Bits per element of each data type with a fixed size (onnx.proto; 4-bit types pack two per byte). */
+export const ELEM_BITS: Record<number, number> = {
+  1: 32, 2: 8, 3: 8, 4: 16, 5: 16, 6: 32, 7: 64, 9: 8, 10: 16, 11: 64, 12: 32, 13: 64, 14: 64, 15: 128, 16: 16,
+  17: 8, 18: 8, 19: 8, 20: 8, 21: 4, 22: 4, 23: 4,
+};
+
 export const AttrType = { FLOAT: 1, INT: 2, STRING: 3, TENSOR: 4, GRAPH: 5, FLOATS: 6, INTS: 7, STRINGS: 8 } as const;
 
 /** Decodes ModelProto bytes; throws protobufjs errors on malformed input (callers wrap them). */

@@ -1,10 +1,48 @@
 /** Reading TensorProto payloads into typed arrays, and building small constant tensors. */
-import { TensorProto, TensorType } from './proto';
+import { ELEM_BITS, elemTypeName, TensorProto, TensorType } from './proto';
+import { UserError } from '../errors';
 
 export type NumericArray = Float32Array | Float64Array | BigInt64Array | Int32Array | Uint8Array;
 
 export function tensorElementCount(t: TensorProto): number {
   return (t.dims ?? []).reduce((a, b) => a * b, 1);
+}
+
+/**
+ * Checks that a tensor's payload matches its declared shape and type, so a damaged file is named
+ * here instead of failing somewhere inside the runtime. `what` names the tensor for the message.
+ */
+export function checkTensorPayload(t: TensorProto, what: string): void {
+  const dims = t.dims ?? [];
+  const shape = `[${dims.join(',')}]`;
+  const fix = 'the file is damaged or was written by a faulty exporter; re-export the model';
+  if (dims.some((d) => !Number.isSafeInteger(d) || d < 0)) throw new UserError(`${what} has an invalid shape ${shape}`, fix);
+  const type = t.data_type ?? 0;
+  if (type === TensorType.STRING) return;
+  const bits = ELEM_BITS[type];
+  if (!bits) throw new UserError(`${what} has data type ${type}, which is not an ONNX tensor type`, fix);
+  const count = dims.reduce((a, b) => a * b, 1);
+  if (t.data_location === 1) return; // external data is checked when it is read
+  const raw = t.raw_data;
+  const typeName = elemTypeName(type);
+  if (raw && raw.length > 0) {
+    const need = Math.ceil((count * bits) / 8);
+    if (raw.length !== need) throw new UserError(`${what} holds ${raw.length} bytes of data, but its shape ${shape} of ${typeName} needs ${need}`, fix);
+    return;
+  }
+  // Typed fields (onnx.proto): which repeated field carries each type, and values per element.
+  const field: [unknown[] | undefined, number] | undefined =
+    type === TensorType.FLOAT ? [t.float_data, 1]
+      : type === 14 ? [t.float_data, 2]
+        : type === TensorType.INT64 ? [t.int64_data, 1]
+          : type === TensorType.DOUBLE ? [t.double_data, 1]
+            : type === 15 ? [t.double_data, 2]
+              : type === TensorType.UINT32 || type === TensorType.UINT64 ? [t.uint64_data, 1]
+                : bits === 4 ? undefined // packed two per int32; left to the runtime
+                  : [t.int32_data, 1];
+  if (!field) return;
+  const have = field[0]?.length ?? 0;
+  if (have !== count * field[1]) throw new UserError(`${what} holds ${have} values, but its shape ${shape} of ${typeName} needs ${count * field[1]}`, fix);
 }
 
 /** The values of a tensor as plain numbers (int64 converted; fine for shapes, indices and weights). */
