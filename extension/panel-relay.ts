@@ -180,6 +180,7 @@ export class PanelRelay {
         if (m.level === 'error') this.d.log.error(line); else if (m.level === 'warning') this.d.log.warn(line); else this.d.log.info(line);
         return;
       }
+      case 'requestTrust': return this.onTrust(m);
       default:
         this.d.log.warn(`the panel sent ${(m as { type: string }).type}, which this host does not handle yet; ignored`);
     }
@@ -221,6 +222,32 @@ export class PanelRelay {
       this.running.set(m.id, req.id);
       const r = await req.result.finally(() => this.running.delete(m.id));
       this.post({ type: 'mapsResult', id: m.id, maps: r.maps.map(mapData), final: true });
+    } catch (e) {
+      this.fail(m.id, e);
+    } finally {
+      progress?.end();
+    }
+  }
+
+  private async onTrust(m: Extract<FromWebview, { type: 'requestTrust' }>): Promise<void> {
+    let progress: ProgressHandle | undefined;
+    try {
+      const view = await this.ensureView();
+      const req = this.d.engine.request({
+        op: 'trust', viewId: view.viewId, layer: m.layer, fact: m.fact, tests: m.tests,
+        ...(m.foil !== undefined ? { foil: m.foil } : {}), ...(m.kinds ? { kinds: m.kinds } : {}), ...(m.box ? { box: m.box } : {}),
+        ...(m.maskFile ? { maskFile: m.maskFile } : {}), ...(m.seed !== undefined ? { seed: m.seed } : {}),
+      }, {
+        onProgress: (done, total, message) => {
+          this.post({ type: 'trustProgress', id: m.id, done, total, ...(message ? { message: message.slice(0, 2000) } : {}) });
+          // Randomized models and perturbed inputs add up: a notification with Cancel.
+          progress ??= this.d.ui.startProgress('Factfoil: trust checks', () => this.d.engine.cancel(req.id));
+          progress.report(done, total, message);
+        },
+      });
+      this.running.set(m.id, req.id);
+      const report = await req.result.finally(() => this.running.delete(m.id));
+      this.post({ type: 'trustResult', id: m.id, report });
     } catch (e) {
       this.fail(m.id, e);
     } finally {

@@ -17,6 +17,8 @@ import { readSidecar, writeSidecar, resolvePreprocessSpec, sidecarPath, Sidecar,
 import { displayRange, DEFAULT_DISPLAY_RANGE } from '../image/normalize';
 import { encodePng } from '../image/overlay';
 import type { Geometry, PreprocessSpec } from '../image/preprocess';
+import { regionFor, runTrustChecks } from '../trust/run';
+import type { TrustReport } from '../trust/report';
 import {
   ENGINE_PROTOCOL_VERSION, EngineMap, EngineOp, EngineRequest, EngineRequestOf, EngineResultOf, ErrorKind, FromEngine,
   ImageGeometrySummary, ModelSummary, PanelSettings, ViewInfo, checkToEngine,
@@ -115,6 +117,7 @@ export class EngineService {
       case 'save': return this.save(req);
       case 'updateSettings': return this.updateSettings(req);
       case 'closeView': this.views.delete(req.viewId); return {};
+      case 'trust': return this.trust(req, rc);
       case 'crash': return this.crash(req.how);
     }
   }
@@ -242,6 +245,15 @@ export class EngineService {
     await loadLabels({ modelPath, sidecar: next, metadataProps: v.ctx.pm.model.metadata, numClasses: v.ctx.pm.scores.numClasses });
     await writeSidecar(modelPath, next);
     return this.openView(modelPath, v.input.path, v.id);
+  }
+
+  private async trust(req: EngineRequestOf<'trust'>, rc: RequestContext): Promise<TrustReport> {
+    const v = this.view(req.viewId);
+    const img = v.input.image!;
+    const region = await regionFor({ box: req.box, maskFile: req.maskFile }, { width: img.width, height: img.height });
+    return runTrustChecks(this.engine, v.ctx.pm, { data: v.input.data, layout: v.ctx.spec.layout, geometry: v.input.geometry }, {
+      tests: req.tests, kinds: req.kinds, layer: req.layer, fact: req.fact, foil: req.foil, region, seed: req.seed,
+    }, (done, total, message) => rc.progress(done, total, message), rc.signal);
   }
 
   private crash(how: 'exit' | 'throw'): never {

@@ -10,6 +10,8 @@
  * Plain data only (no vscode, no onnxruntime), so both sides import it.
  */
 
+import { TRUST_MAP_KINDS, TRUST_REPORT_FORMAT, TRUST_TESTS, TrustMapKind, TrustReport, TrustTest } from '../trust/report';
+
 export const ENGINE_PROTOCOL_VERSION = 1;
 
 // ---- shared vocabulary ------------------------------------------------------------------------
@@ -134,6 +136,15 @@ export interface EngineOps {
   /** Write the model sidecar atomically (a malformed one is reported, not replaced) and reopen the view. */
   updateSettings: { req: { viewId: string; settings: PanelSettings }; res: ViewInfo };
   closeView: { req: { viewId: string }; res: Record<string, never> };
+  /** The trust checks of DESIGN §4.2 on the view's image (core/trust runTrustChecks); progress on one scale. */
+  trust: {
+    req: {
+      viewId: string; layer: string; fact: number; foil?: number; tests: TrustTest[]; kinds?: TrustMapKind[];
+      /** Original-image pixels; or a mask image file (non-zero = inside). */
+      box?: { x: number; y: number; width: number; height: number }; maskFile?: string; seed?: number;
+    };
+    res: TrustReport;
+  };
   /** Test hook, honoured only when the engine was started with FACTFOIL_ENGINE_TEST_HOOKS=1. */
   crash: { req: { how: 'exit' | 'throw' }; res: Record<string, never> };
 }
@@ -229,7 +240,7 @@ export function checkPanelSettings(v: unknown, path: string): PanelSettings {
 /** Checks one request's operation and fields; returns it typed. */
 export function checkEngineRequest(v: unknown, path = 'request'): EngineRequest {
   const o = object(v, path);
-  const op = oneOf(o.op, `${path}.op`, ['openModel', 'openView', 'predict', 'maps', 'save', 'updateSettings', 'closeView', 'crash'] as const);
+  const op = oneOf(o.op, `${path}.op`, ['openModel', 'openView', 'predict', 'maps', 'save', 'updateSettings', 'closeView', 'trust', 'crash'] as const);
   const f = (k: string) => `${path}.${k}`;
   switch (op) {
     case 'openModel':
@@ -280,6 +291,28 @@ export function checkEngineRequest(v: unknown, path = 'request'): EngineRequest 
     case 'updateSettings':
       onlyFields(o, ['op', 'viewId', 'settings'], path);
       return { op, viewId: ID(o.viewId, f('viewId')), settings: checkPanelSettings(o.settings, f('settings')) };
+    case 'trust': {
+      onlyFields(o, ['op', 'viewId', 'layer', 'fact', 'foil', 'tests', 'kinds', 'box', 'maskFile', 'seed'], path);
+      const list = <T extends string>(v: unknown, p: string, allowed: readonly T[]): T[] => {
+        if (!Array.isArray(v) || v.length < 1 || v.length > allowed.length) throw new EngineMessageError(p, `expected 1..${allowed.length} of ${allowed.join(', ')}`);
+        return v.map((x, i) => oneOf(x, `${p}[${i}]`, allowed));
+      };
+      const r: EngineRequestOf<'trust'> = {
+        op, viewId: ID(o.viewId, f('viewId')), layer: string(o.layer, f('layer')), fact: integer(o.fact, f('fact'), 0, MAX_CLASS),
+        tests: list(o.tests, f('tests'), TRUST_TESTS),
+      };
+      const foil = optional(o.foil, (x) => integer(x, f('foil'), 0, MAX_CLASS));
+      const kinds = optional(o.kinds, (x) => list(x, f('kinds'), TRUST_MAP_KINDS));
+      const seed = optional(o.seed, (x) => integer(x, f('seed'), 0, 2 ** 32 - 1));
+      const maskFile = optional(o.maskFile, (x) => string(x, f('maskFile')));
+      const box = optional(o.box, (x) => {
+        const b = object(x, f('box'));
+        onlyFields(b, ['x', 'y', 'width', 'height'], f('box'));
+        return { x: finite(b.x, f('box.x')), y: finite(b.y, f('box.y')), width: finite(b.width, f('box.width'), Number.MIN_VALUE), height: finite(b.height, f('box.height'), Number.MIN_VALUE) };
+      });
+      if (box && maskFile) throw new EngineMessageError(path, 'give a box or a mask file, not both');
+      return { ...r, ...(foil !== undefined ? { foil } : {}), ...(kinds ? { kinds } : {}), ...(seed !== undefined ? { seed } : {}), ...(maskFile ? { maskFile } : {}), ...(box ? { box } : {}) };
+    }
     case 'crash':
       onlyFields(o, ['op', 'how'], path);
       return { op, how: oneOf(o.how, f('how'), ['exit', 'throw'] as const) };
@@ -394,6 +427,12 @@ export function checkEngineResult<O extends EngineOp>(op: O, v: unknown): Engine
       if (!Array.isArray(o.files)) throw new EngineMessageError(`${path}.files`, 'expected an array');
       o.files.forEach((x, i) => string(x, `${path}.files[${i}]`));
       return o as EngineResultOf<O>;
+    }
+    case 'trust': {
+      const o = object(v, path);
+      if (o.format !== TRUST_REPORT_FORMAT) throw new EngineMessageError(`${path}.format`, `expected ${TRUST_REPORT_FORMAT}`);
+      string(o.layer, `${path}.layer`);
+      return o as unknown as EngineResultOf<O>;
     }
     case 'predict': {
       const o = object(v, path);

@@ -250,6 +250,28 @@ describe('panel relay (extension host side of the panel)', () => {
     assert.ok(logs.some((l) => /not sending a malformed init/.test(l)));
   });
 
+  it('relays a trust request: fields passed on, progress as trustProgress with a Cancel notification, the report as trustResult', async () => {
+    const { relay, engine, ofType, ui } = setup();
+    relay.receive({ type: 'requestTrust', id: 21, layer: 'stage1', fact: 1, foil: 2, tests: ['truth', 'sanity'], kinds: ['evidence'], box: { x: 1, y: 2, width: 3, height: 4 }, seed: 7 });
+    await tick();
+    const call = engine.last('trust');
+    assert.deepEqual(call.req, { op: 'trust', viewId: 'v1', layer: 'stage1', fact: 1, foil: 2, tests: ['truth', 'sanity'], kinds: ['evidence'], box: { x: 1, y: 2, width: 3, height: 4 }, seed: 7 });
+    call.handlers.onProgress!(1, 5, 'maps of the trained model');
+    assert.equal(ui.progress[0].title, 'Factfoil: trust checks');
+    ui.progress[0].cancel();
+    assert.deepEqual(engine.cancelled, [call.id]);
+    const report = { format: 'factfoil-trust/1', layer: 'stage1', fact: 1, foil: 2, p_fact: 0.65, kinds: ['evidence'], seed: 7, notes: [] };
+    call.resolve(report);
+    await tick();
+    assert.deepEqual(ofType('trustProgress'), [{ type: 'trustProgress', id: 21, done: 1, total: 5, message: 'maps of the trained model' }]);
+    assert.deepEqual(ofType('trustResult'), [{ type: 'trustResult', id: 21, report }]);
+    assert.equal(ui.progress[0].ended, true);
+    // A box and a mask together never reach the engine.
+    relay.receive({ type: 'requestTrust', id: 22, layer: 'stage1', fact: 1, tests: ['truth'], box: { x: 1, y: 2, width: 3, height: 4 }, maskFile: '/m.png' });
+    await tick();
+    assert.equal(engine.calls.filter((c) => c.req.op === 'trust').length, 1);
+  });
+
   it('initMessage and savedMessage say where things are', () => {
     const m = initMessage(view('v1'), 'data:image/png;base64,AAAA', DEFAULT_SETTINGS);
     assert.equal(m.model.scores, 'logits');

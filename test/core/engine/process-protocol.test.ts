@@ -37,6 +37,16 @@ describe('engine process protocol', () => {
     rejects(() => checkToEngine({ v, type: 'request', id: 1, request: { op: 'updateSettings', viewId: 'v', settings: { preprocessing: { width: 4, height: 4, resize: 'crop', channels: 'RGB', layout: 'NCHW', scale: 1, mean: [0, 0, 0], std: [1, 0, 1] } } } }), /std\[1\]/);
   });
 
+  it('checks trust requests: known checks and kinds only, a box or a mask but not both', () => {
+    const t = { op: 'trust', viewId: 'v', layer: 'stage4', fact: 0, tests: ['truth'], box: { x: 0, y: 0, width: 5, height: 5 } };
+    assert.deepEqual(checkToEngine({ v, type: 'request', id: 1, request: t }).type, 'request');
+    rejects(() => checkToEngine({ v, type: 'request', id: 1, request: { ...t, tests: ['vibes'] } }), /tests\[0\]/);
+    rejects(() => checkToEngine({ v, type: 'request', id: 1, request: { ...t, kinds: ['mismatch'] } }), /kinds\[0\]/);
+    rejects(() => checkToEngine({ v, type: 'request', id: 1, request: { ...t, maskFile: '/m.png' } }), /not both/);
+    rejects(() => checkToEngine({ v, type: 'request', id: 1, request: { ...t, box: { x: 0, y: 0, width: 0, height: 5 } } }), /box\.width/);
+    rejects(() => checkEngineResult('trust', { format: 'other', layer: 'l' }), /format/);
+  });
+
   it('checks what the engine sends: envelopes, progress, and results per operation', () => {
     assert.deepEqual(checkFromEngine({ v, type: 'progress', id: 2, done: 3, total: 8 }), { v, type: 'progress', id: 2, done: 3, total: 8 });
     rejects(() => checkFromEngine({ v, type: 'progress', id: 2, done: 9, total: 8 }), /9 > total 8/);
