@@ -61,7 +61,13 @@ function newestSource(): { file: string; mtime: number } {
   return best;
 }
 
-const isPng = (file: string) => readFileSync(file).subarray(0, 8).equals(Buffer.from([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a]));
+/** Width and height of a PNG file from its IHDR chunk (PNG spec §5.2 signature, §11.2.2 IHDR), or null if it is no PNG. */
+function pngSize(file: string): { width: number; height: number } | null {
+  const b = readFileSync(file);
+  const signature = Buffer.from([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a]);
+  if (b.length < 24 || !b.subarray(0, 8).equals(signature) || b.toString('latin1', 12, 16) !== 'IHDR') return null;
+  return { width: b.readUInt32BE(16), height: b.readUInt32BE(20) };
+}
 
 describe('end to end in code-server: explain a demo image from the Explorer', function () {
   this.timeout(15 * 60_000);
@@ -177,11 +183,12 @@ describe('end to end in code-server: explain a demo image from the Explorer', fu
 
     const saved = await step('press s to save the map beside the image', 60, async () => {
       await page.keyboard.press('s');
-      for (;;) {
+      for (const deadline = Date.now() + 55_000; ;) {
         const fresh = readdirSync(imageDir).filter((f) => !before.has(f));
         const png = fresh.find((f) => f.endsWith('.png'));
         const json = fresh.find((f) => f.endsWith('.json'));
         if (png && json) return { png: join(imageDir, png), json: join(imageDir, json) };
+        if (Date.now() > deadline) throw new Error(`no new .png and .json beside the image after 55 s (new files: ${fresh.join(', ') || 'none'})`);
         await new Promise((r) => setTimeout(r, 250));
       }
     });
@@ -194,12 +201,15 @@ describe('end to end in code-server: explain a demo image from the Explorer', fu
     const stem = IMAGE.file.replace(/\.png$/, '');
     assert.ok(saved.png.startsWith(join(imageDir, `${stem}.contrast.`)), `saved PNG named for the image and the map kind: ${saved.png}`);
     assert.equal(saved.json.replace(/\.json$/, ''), saved.png.replace(/\.png$/, ''), 'record shares the PNG name');
-    assert.ok(isPng(saved.png), 'the saved map is a PNG file (signature, PNG spec §5.2)');
+    const imageSize = pngSize(join(imageDir, IMAGE.file));
+    assert.ok(imageSize, 'the demo image is a PNG');
+    assert.deepEqual(pngSize(saved.png), imageSize, 'the saved map is a PNG the size of the image (the overlay)');
     const record = await readRecord(saved.json);
     assert.equal(record.format, 'factfoil-record/1');
     assert.equal(record.map.kind, 'contrast');
     assert.equal(record.map.layer.id, stepped, 'the record names the layer stepped to');
     assert.equal(record.input.kind, 'image');
+    if (record.input.kind === 'image') assert.deepEqual({ width: record.input.width, height: record.input.height }, imageSize);
     assert.equal(resolve(imageDir, record.input.path), join(imageDir, IMAGE.file), 'the record points at the image');
     assert.equal(record.files.png, saved.png.slice(imageDir.length + 1));
     assert.deepEqual([...before].sort(), readdirSync(imageDir).filter((f) => before.has(f)).sort(), 'no existing file was touched');
