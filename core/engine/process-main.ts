@@ -128,7 +128,10 @@ export class EngineService {
     const stamp = `${fileStamp(abs)}|${fileStamp(sidecarPath(abs))}`;
     const hit = this.contexts.get(abs);
     if (hit && hit.stamp === stamp) return hit.ctx;
-    const ctx = openModel(this.engine, abs);
+    // Engine.prepare caches by content (sha256): a copy of a model elsewhere gets the first
+    // copy's PreparedModel, whose path is the other file. Records, sidecar writes and the summary
+    // must name this file, so the context carries this path.
+    const ctx = openModel(this.engine, abs).then((c) => (c.pm.model.path === abs ? c : { ...c, pm: { ...c.pm, model: { ...c.pm.model, path: abs } } }));
     this.contexts.set(abs, { stamp, ctx });
     ctx.catch(() => this.contexts.delete(abs));
     return ctx;

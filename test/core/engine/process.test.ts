@@ -7,7 +7,7 @@
  */
 import { strict as assert } from 'node:assert';
 import { execFileSync } from 'node:child_process';
-import { copyFileSync, existsSync, mkdtempSync, readFileSync, readdirSync, rmSync } from 'node:fs';
+import { copyFileSync, existsSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import * as path from 'node:path';
 import { EngineClient, EngineRequestError, EngineExit } from '../../../extension/engine-client';
@@ -99,6 +99,7 @@ describe('engine process (forked, demo model)', function () {
     assert.equal(record.format, 'factfoil-record/1');
     assert.equal(record.normalization.colormap, 'inferno');
     assert.equal(record.map.layer.id, 'stage4');
+    assert.equal(record.model.path, MODEL);
     assert.equal(record.foil.index, foil);
     assert.equal(readdirSync(path.dirname(image)).length, 7);
   });
@@ -165,6 +166,38 @@ describe('engine process (forked, demo model)', function () {
     });
     id = p.id;
     await assert.rejects(p.result, (e: unknown) => e instanceof EngineRequestError && e.kind === 'cancelled');
+  });
+
+  it('writes panel settings to the sidecar atomically and reopens the view; a malformed sidecar is reported, not replaced', async () => {
+    // A private copy of the model and its settings, so the fixture's sidecar is never touched.
+    const mdir = path.join(dir, 'model');
+    execFileSync('mkdir', ['-p', mdir]);
+    for (const f of ['parts-sorter.onnx', 'parts-sorter.factfoil.json', 'labels.txt']) copyFileSync(path.join(FIXTURES, 'parts', f), path.join(mdir, f));
+    const model = path.join(mdir, 'parts-sorter.onnx');
+    const sidecar = path.join(mdir, 'parts-sorter.factfoil.json');
+    const fixtureSidecar = readFileSync(path.join(FIXTURES, 'parts', 'parts-sorter.factfoil.json'), 'utf8');
+    // Same bytes as the fixture model opened above: the engine must still treat it as its own file.
+    const view = await client.request({ op: 'openView', model, image }).result;
+    assert.equal(view.summary.path, model);
+    const settings = { ...view.summary.settings, preprocessing: { ...view.summary.settings.preprocessing, resize: 'letterbox' as const } };
+    const after = await client.request({ op: 'updateSettings', viewId: view.viewId, settings }).result;
+    assert.equal(after.viewId, view.viewId);
+    assert.equal(after.image.geometry.kind, 'letterbox');
+    const written = JSON.parse(readFileSync(sidecar, 'utf8'));
+    assert.equal(written.preprocess.resize, 'letterbox');
+    assert.equal(written.labels, 'labels.txt', 'the labels file stays relative to the model');
+    assert.deepEqual(readdirSync(mdir).sort(), ['labels.txt', 'parts-sorter.factfoil.json', 'parts-sorter.onnx'], 'no temporary file left behind');
+    // Settings the model cannot take are refused before the file is touched.
+    const before = readFileSync(sidecar, 'utf8');
+    await assert.rejects(client.request({ op: 'updateSettings', viewId: view.viewId, settings: { ...settings, preprocessing: { ...settings.preprocessing, width: 100 } } }).result,
+      (e: unknown) => e instanceof EngineRequestError && e.kind === 'user' && /does not match the model input/.test(e.message));
+    assert.equal(readFileSync(sidecar, 'utf8'), before);
+    // A sidecar broken by hand is reported with its name and kept as it is.
+    writeFileSync(sidecar, '{ "format": "factfoil-model/1", ');
+    await assert.rejects(client.request({ op: 'updateSettings', viewId: view.viewId, settings }).result,
+      (e: unknown) => e instanceof EngineRequestError && e.kind === 'user' && e.message.includes(sidecar) && /not valid JSON/.test(e.message));
+    assert.equal(readFileSync(sidecar, 'utf8'), '{ "format": "factfoil-model/1", ');
+    assert.equal(readFileSync(path.join(FIXTURES, 'parts', 'parts-sorter.factfoil.json'), 'utf8'), fixtureSidecar, "the other copy's settings are untouched");
   });
 
   it('after a crash fails pending requests with a clear message and restarts on the next request', async () => {
