@@ -72,18 +72,35 @@ export function activate(context: vscode.ExtensionContext): void {
     const configured = defaultModelFor(image, settings(), workspaceFolderOf(image));
     if (configured && (await exists(configured))) return configured;
     if (configured) log.warn(`factfoil.defaultModels names ${configured} for ${path.dirname(image)}, which does not exist; asking instead`);
-    const files = await vscode.workspace.findFiles('**/*.onnx', '**/{node_modules,.git}/**', 1000);
-    const candidates = (await Promise.all(files.map(async (u) => {
-      try { return { path: u.fsPath, mtimeMs: (await fsp.stat(u.fsPath)).mtimeMs }; } catch { return undefined; }
-    }))).filter((c): c is { path: string; mtimeMs: number } => !!c);
-    const root = workspaceFolderOf(image) ?? vscode.workspace.workspaceFolders?.[0]?.uri.fsPath;
-    const items: (vscode.QuickPickItem & { path?: string })[] = orderModelCandidates(candidates, { paired: pairings.modelFor(image), recent: pairings.recent(), root });
-    items.push({ label: 'Browse…', description: 'choose a .onnx file outside the workspace', alwaysShow: true });
-    const picked = await vscode.window.showQuickPick(items, {
-      title: `Which model should explain ${path.basename(image)}?`,
-      placeHolder: candidates.length ? 'Type to filter the workspace models (most recently used first)' : 'No .onnx files in the workspace: browse for one',
-      matchOnDescription: true, matchOnDetail: false, ignoreFocusOut: true,
+    // The pick shows at once, busy, while the workspace is searched (large workspaces take a while).
+    type Item = vscode.QuickPickItem & { path?: string };
+    const qp = vscode.window.createQuickPick<Item>();
+    qp.title = `Which model should explain ${path.basename(image)}?`;
+    qp.placeholder = 'Looking for .onnx files in the workspace…';
+    qp.matchOnDescription = true;
+    qp.ignoreFocusOut = true;
+    qp.busy = true;
+    const browse: Item = { label: 'Browse…', description: 'choose a .onnx file outside the workspace', alwaysShow: true };
+    qp.items = [browse];
+    const chosen = new Promise<Item | undefined>((resolve) => {
+      qp.onDidAccept(() => resolve(qp.selectedItems[0]));
+      qp.onDidHide(() => resolve(undefined));
     });
+    qp.show();
+    const started = Date.now();
+    void (async () => {
+      const files = await vscode.workspace.findFiles('**/*.onnx', '**/{node_modules,.git}/**', 1000);
+      const candidates = (await Promise.all(files.map(async (u) => {
+        try { return { path: u.fsPath, mtimeMs: (await fsp.stat(u.fsPath)).mtimeMs }; } catch { return undefined; }
+      }))).filter((c): c is { path: string; mtimeMs: number } => !!c);
+      log.info(`found ${candidates.length} .onnx file(s) in the workspace in ${Date.now() - started} ms`);
+      const root = workspaceFolderOf(image) ?? vscode.workspace.workspaceFolders?.[0]?.uri.fsPath;
+      qp.items = [...orderModelCandidates(candidates, { paired: pairings.modelFor(image), recent: pairings.recent(), root }), browse];
+      qp.placeholder = candidates.length ? 'Type to filter the workspace models (most recently used first)' : 'No .onnx files in the workspace: browse for one';
+      qp.busy = false;
+    })().catch((e) => { log.error(`looking for models failed: ${(e as Error).stack ?? e}`); qp.busy = false; });
+    const picked = await chosen;
+    qp.dispose();
     if (!picked) return undefined;
     if (picked.path) return picked.path;
     const browsed = await vscode.window.showOpenDialog({ canSelectMany: false, openLabel: 'Use this model', filters: { 'ONNX models': ['onnx'] } });
@@ -102,6 +119,7 @@ export function activate(context: vscode.ExtensionContext): void {
       return;
     }
     if (!(await requireTrust())) return;
+    log.info(`explain ${image}: choosing a model`);
     const model = await chooseModel(image);
     if (model) explain(model, image);
   }
