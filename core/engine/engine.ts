@@ -8,6 +8,7 @@ import { ComposedPlan, composePlan, PlanRequest } from '../plan/compose';
 import { concreteInputDims, probeModel } from './probe';
 import { createSession, floatTensor, ort, runSession, RuntimeOptions, defaultRuntimeOptions } from './runtime';
 import { UserError } from '../errors';
+import { encodeModelProto, ModelProto, TensorType } from '../model/proto';
 
 export interface SeedBatch {
   /** [K,R] row-major. */
@@ -19,7 +20,10 @@ export interface SeedBatch {
 
 export interface CompiledPlan {
   plan: ComposedPlan;
+  /** The whole plan; for a split plan, its forward graph. */
   session: ort.InferenceSession;
+  /** A split plan's backward session (made on the first run, typed by the forward's outputs) and the last forward. */
+  split?: { backward?: Promise<ort.InferenceSession>; last?: { input: Float32Array; out: Record<string, ort.Tensor> } };
 }
 
 export class Engine {
@@ -48,8 +52,9 @@ export class Engine {
     if (!c) {
       c = (async () => {
         const plan = composePlan(pm, req);
-        const session = await createSession(plan.bytes, `the explanation plan for ${pm.model.path}`, this.options);
-        return { plan, session };
+        const bytes = plan.split ? encodeModelProto(plan.split.forward) : plan.bytes;
+        const session = await createSession(bytes, `the explanation plan for ${pm.model.path}`, this.options);
+        return { plan, session, split: plan.split ? {} : undefined };
       })();
       this.compiled.set(key, c);
       c.catch(() => this.compiled.delete(key));
@@ -71,7 +76,35 @@ export class Engine {
       [cp.plan.seedCoef]: floatTensor(seeds.coef, [seeds.k, 1]),
       ...extra,
     };
+    if (cp.split && cp.plan.split) return abortable(this.runSplit(pm, cp, input, feeds, fetch), signal);
     return abortable(runSession(cp.session, feeds, fetch, `the explanation plan for ${pm.model.path}`), signal);
+  }
+
+  /**
+   * A split plan: the forward runs once per image (the last one is kept, compared by value), its
+   * activations feed the backward session, which runs once per seed chunk.
+   */
+  private async runSplit(pm: PreparedModel, cp: CompiledPlan, input: Float32Array, feeds: Record<string, ort.Tensor>, fetch: string[]): Promise<Record<string, ort.Tensor>> {
+    const plan = cp.plan.split!, state = cp.split!;
+    const what = `the explanation plan for ${pm.model.path}`;
+    let fwd = state.last && sameValues(state.last.input, input) ? state.last.out : undefined;
+    if (!fwd) {
+      const names = [...cp.session.outputNames];
+      fwd = await runSession(cp.session, { [pm.model.input.name]: feeds[pm.model.input.name] }, names, what);
+      state.last = { input: Float32Array.from(input), out: fwd };
+    }
+    const out: Record<string, ort.Tensor> = {};
+    for (const f of fetch) if (fwd[f]) out[f] = fwd[f];
+    const rest = fetch.filter((f) => !out[f]);
+    if (!rest.length) return out;
+    const forward = fwd;
+    state.backward ??= createSession(encodeModelProto(typedBoundary(plan.backward, plan.boundary, forward)), what, this.options);
+    state.backward.catch(() => { state.backward = undefined; });
+    const session = await state.backward;
+    const all: Record<string, ort.Tensor> = { ...feeds };
+    for (const t of plan.boundary) all[t] = forward[t];
+    const given = Object.fromEntries(session.inputNames.map((n) => [n, all[n]]));
+    return Object.assign(out, await runSession(session, given, rest, what));
   }
 
   /** Plain forward pass: the scores (logits) of one input. */
@@ -94,15 +127,37 @@ export class Engine {
     while (this.compiled.size > this.maxSessions) {
       const [key, c] = this.compiled.entries().next().value as [string, Promise<CompiledPlan>];
       this.compiled.delete(key);
-      c.then((x) => x.session.release()).catch(() => undefined);
+      c.then(releaseCompiled).catch(() => undefined);
     }
   }
 
   async dispose(): Promise<void> {
-    for (const c of this.compiled.values()) await c.then((x) => x.session.release()).catch(() => undefined);
+    for (const c of this.compiled.values()) await c.then(releaseCompiled).catch(() => undefined);
     this.compiled.clear();
     this.prepared.clear();
   }
+}
+
+async function releaseCompiled(c: CompiledPlan): Promise<void> {
+  await c.session.release();
+  if (c.split?.backward) await (await c.split.backward).release();
+}
+
+function sameValues(a: Float32Array, b: Float32Array): boolean {
+  if (a.length !== b.length) return false;
+  for (let i = 0; i < a.length; i++) if (a[i] !== b[i] && !(a[i] !== a[i] && b[i] !== b[i])) return false;
+  return true;
+}
+
+const ELEM_TYPES: Record<string, number> = { float32: TensorType.FLOAT, int64: TensorType.INT64, int32: TensorType.INT32, bool: TensorType.BOOL, uint8: TensorType.UINT8, int8: TensorType.INT8 };
+
+/** The backward graph with its boundary inputs typed and shaped as the forward produced them. */
+function typedBoundary(model: ModelProto, boundary: string[], forward: Record<string, ort.Tensor>): ModelProto {
+  const g = model.graph!;
+  const inputs = boundary.map((name) => ({
+    name, type: { tensor_type: { elem_type: ELEM_TYPES[forward[name].type] ?? TensorType.FLOAT, shape: { dim: forward[name].dims.map((d) => ({ dim_value: Number(d) })) } } },
+  }));
+  return { ...model, graph: { ...g, input: [...(g.input ?? []), ...inputs] } };
 }
 
 function abortable<T>(work: Promise<T>, signal?: AbortSignal): Promise<T> {

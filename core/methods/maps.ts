@@ -155,11 +155,12 @@ async function mismatchMaps(engine: Engine, pm: PreparedModel, input: Float32Arr
   const R = pm.scores.numClasses;
   const estimate = opts.estimate ?? { mode: 'exact' };
   const sweep = sweepSeeds(pm, estimate.mode === 'exact' ? { mode: 'exact', basis: opts.exactBasis } : { ...estimate, seed: estimate.seed ?? DEFAULT_PROBE_SEED });
-  const cp = await engine.compile(pm, { passes: [{ relu: 'standard', layers, heads: ['mismatch'] }] });
   const total = sweep.n;
   // Runs of at most `rows` seed rows, evenly filled; the last also carries the μ and mean rows.
+  // Several runs share one forward (a split plan); a single run keeps the one-session plan.
   const rows = seedChunkSize(pm, layers, opts.budgetBytes);
   const runs = Math.max(1, Math.ceil((total + 2) / rows));
+  const cp = await engine.compile(pm, { passes: [{ relu: 'standard', layers, heads: ['mismatch'] }], ...(runs > 1 ? { split: true } : {}) });
   const chunk = Math.ceil((total + 2) / runs);
   const acc = new Map<string, Float32Array>();
   const accDims = new Map<string, number[]>();

@@ -12,6 +12,7 @@ import { GraphBuilder } from '../autodiff/builder';
 import { buildBackward } from '../autodiff/backward';
 import { PreparedModel } from './prepared';
 import { LayerInfo } from '../model/layers';
+import { splitPlan, SplitPlan } from './split';
 
 export type HeadKind = 'grad' | 'cam' | 'mismatch' | 'expectancy' | 'detail';
 
@@ -26,6 +27,8 @@ export interface PlanRequest {
   passes: PlanPass[];
   /** Forward tensors to return as they are (activations, for checks and trust tests). */
   expose?: string[];
+  /** Also split the plan into forward and backward graphs (for sweeps of many seed chunks). */
+  split?: boolean;
 }
 
 /** Output names of one head at one layer: `raw` at layer resolution, `up` at input resolution. */
@@ -44,6 +47,8 @@ export interface ComposedPlan {
   /** Output carrying the scores (logits) of the forward. */
   scoresOutput: string;
   outputs: Map<string, HeadOutputs>; // key `${pass}|${head}|${layer}`
+  /** The forward/backward split, when asked for and possible. */
+  split?: SplitPlan;
 }
 
 export const SEED_BASE = 'ff_seed_base';
@@ -135,7 +140,8 @@ export function composePlan(pm: PreparedModel, req: PlanRequest): ComposedPlan {
   graphOutputs.push(scoresOutput);
   const model = assemble(pm, b, graphOutputs, forwardOutputs, accInputs, accScale, sweepFrom);
   const key = JSON.stringify(req);
-  return { bytes: model, key, seedBase: SEED_BASE, seedCoef: SEED_COEF, accInputs, accScale, sweepFrom, scoresOutput, outputs };
+  const split = req.split ? splitPlan(model, inputName, [SEED_BASE, SEED_COEF, ...accInputs.values(), ...(accScale ? [accScale] : []), ...(sweepFrom ? [sweepFrom] : [])]) : undefined;
+  return { bytes: encodeModelProto(model), key, split, seedBase: SEED_BASE, seedCoef: SEED_COEF, accInputs, accScale, sweepFrom, scoresOutput, outputs };
 }
 
 export function isNhwc(inputDims: number[]): boolean {
@@ -197,7 +203,7 @@ function mismatchHead(b: GraphBuilder, grid: { a: string; g?: string }, layer: L
 }
 
 function assemble(pm: PreparedModel, b: GraphBuilder, outputs: string[], forwardOutputs: Map<number, Map<number, string>>,
-  accInputs: Map<string, string>, accScale: string | undefined, sweepFrom: string | undefined): Uint8Array {
+  accInputs: Map<string, string>, accScale: string | undefined, sweepFrom: string | undefined): ModelProto {
   const original = pm.model.proto;
   const nodes = pm.nodes.map((n, i) => {
     const extra = forwardOutputs.get(i);
@@ -229,7 +235,7 @@ function assemble(pm: PreparedModel, b: GraphBuilder, outputs: string[], forward
       value_info: [],
     },
   };
-  return encodeModelProto(model);
+  return model;
 }
 
 function gridShape(pm: PreparedModel, layer: string): number[] {

@@ -2,7 +2,8 @@
  * Peak RSS and time of one exact mismatch sweep of the bench ResNet-18 under a given seed budget,
  * in its own process (so the peak is its own): calibrates core/engine/budget.ts.
  *
- * Usage: npx tsx test/bench/chunk-memory.ts <budget MiB> [layer]   (ARENA=1 turns the arena on)
+ * Usage: npx tsx test/bench/chunk-memory.ts <budget MiB> [layer]
+ * Environment: ARENA=1 turns the arena on, THREADS=n (default 2), PROBE=K times a K-probe estimate instead.
  */
 import { Engine } from '../../core/engine/engine';
 import { explainMaps } from '../../core/methods/maps';
@@ -12,14 +13,14 @@ import { seedChunkSize } from '../../core/engine/budget';
 import { headBasis } from '../../core/methods/head-basis';
 (async () => {
   const budget = Number(process.argv[2]) * 2 ** 20; const layer = process.argv[3] ?? 'stage2';
-  const e = new Engine({ threads: 2, arena: process.env.ARENA === '1' });
+  const e = new Engine({ threads: Number(process.env.THREADS ?? 2), arena: process.env.ARENA === '1' });
   const pm = await e.prepare(loadModel('.cache/bench/resnet18.onnx'), [1, 3, 224, 224]);
   const x = (await readNpy('.cache/bench/input.npy')).data as Float32Array;
   headBasis(pm);
   await e.scores(pm, x);
   const rss0 = process.resourceUsage().maxRSS / 1024;
   const t = performance.now(); const c0 = process.cpuUsage();
-  const r = await explainMaps(e, pm, x, [{ kind: 'mismatch', fact: 0 }], [layer], { estimate: { mode: 'exact' }, budgetBytes: budget });
+  const r = await explainMaps(e, pm, x, [{ kind: 'mismatch', fact: 0 }], [layer], { estimate: process.env.PROBE ? { mode: 'probe', k: Number(process.env.PROBE), seed: 1 } : { mode: 'exact' }, budgetBytes: budget });
   const c = process.cpuUsage(c0);
   console.log(JSON.stringify({ budgetMiB: budget / 2 ** 20, layer, chunk: seedChunkSize(pm, [layer], budget) - 2, seeds: r[0].estimate!.seeds, wall: Math.round(performance.now() - t), cpu: Math.round((c.user + c.system) / 1e3), rss0: Math.round(rss0), peakRss: Math.round(process.resourceUsage().maxRSS / 1024) }));
   await e.dispose();

@@ -20,7 +20,7 @@ interface Event { cat: string; name: string; dur: number; args?: { op_name?: str
 async function profiled(bytes: Uint8Array, feeds: Record<string, ort.Tensor>, runs: number, tag: string): Promise<Event[]> {
   const prefix = path.join(os.tmpdir(), `ff-profile-${process.pid}-${tag}`);
   const s = await ort.InferenceSession.create(bytes, {
-    intraOpNumThreads: 2, interOpNumThreads: 1, graphOptimizationLevel: 'all', enableCpuMemArena: true,
+    intraOpNumThreads: Number(process.env.THREADS ?? 2), interOpNumThreads: 1, graphOptimizationLevel: 'all', enableCpuMemArena: false,
     enableProfiling: true, profileFilePrefix: prefix,
   });
   const fed = Object.fromEntries(Object.entries(feeds).filter(([k]) => s.inputNames.includes(k)));

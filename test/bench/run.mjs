@@ -111,10 +111,14 @@ metric('first_map_all_stages', ours?.first_map_all_stages, peer.basic?.first_map
   ours_cold_ms: ours?.first_map_cold_ms ?? null,
 });
 metric('mismatch_exact_layer2', ours?.mismatch_exact_layer2, bestSweep?.times, 'ms', {
-  peer_path: bestSweep?.path ?? null, peer_chunk: bestSweep?.chunk ?? null, ours_chunk: ours?.mismatch_chunk ?? null,
+  peer_path: bestSweep?.path ?? null, peer_chunk: bestSweep?.chunk ?? null, ours_chunk_rows: ours?.mismatch_chunk ?? null,
+  ours_seeds: ours?.mismatch_seeds ?? null, ours_path: 'spectral basis of the centred head (rank seeds) at the scores, chunked under the budget',
   peer_batched: peer.batched ? { median: peer.batched.times ? median(peer.batched.times) : null, chunk: peer.batched.chunk, chunk_trials_ms_est: peer.batched.chunk_trials_ms_est, peak_rss_mib: peer.batched.peak_rss_mib } : null,
   peer_vmap: peer.vmap ? { median: peer.vmap.times ? median(peer.vmap.times) : null, chunk: peer.vmap.chunk, chunk_trials_ms_est: peer.vmap.chunk_trials_ms_est, peak_rss_mib: peer.vmap.peak_rss_mib } : null,
   map_pearson_ours_vs_peer: ours?.map && bestSweep?.map ? pearson(ours.map, bestSweep.map) : null,
+});
+if (ours?.mismatch_exact_onehot_layer2) metric('mismatch_exact_layer2_onehot', ours.mismatch_exact_onehot_layer2, bestSweep?.times, 'ms', {
+  what: 'ours with the definition\'s 1000 one-hot seeds instead of the spectral basis (1 run)', rel_l2_vs_spectral: ours.onehot_rel_l2_vs_spectral,
 });
 metric('mismatch_exact_layer2_loop', ours?.mismatch_exact_layer2, peer.loop?.times ?? null, 'ms', {
   peer_path: quick ? 'skipped in --quick' : '1000 torch.autograd.grad calls, retain_graph',
@@ -122,7 +126,7 @@ metric('mismatch_exact_layer2_loop', ours?.mismatch_exact_layer2, peer.loop?.tim
 metric('mismatch_probe32_layer2', ours?.mismatch_probe32_layer2, null, 'ms', {
   pearson_vs_exact: ours?.probe32_pearson_vs_exact ?? null, rel_l2_vs_exact: ours?.probe32_rel_l2_vs_exact ?? null,
   fraction_of_exact: ours ? median(ours.mismatch_probe32_layer2) / median(ours.mismatch_exact_layer2) : null,
-  probe: 'rademacher, seed 1',
+  probe: `${ours?.probe32_design ?? '?'}, seed 1`,
 });
 metric('step_layer', ours?.step_layer, null, 'ms', { what: ours?.step_layer_image ?? null });
 metric('peak_rss_mib', oursRss?.peak_rss_mib ?? null, bestSweep?.peak_rss_mib ?? null, 'MiB', {
@@ -133,13 +137,15 @@ metric('peak_rss_mib', oursRss?.peak_rss_mib ?? null, bestSweep?.peak_rss_mib ??
 metric('matmul_gflops', ours?.matmul?.gflops ?? null, peer.mm?.gflops ?? null, 'GFLOP/s', { n: meta.matmul_n, what: 'dense float32 MatMul N×N·N×N, best of repeats, 2 threads; ours through onnxruntime, peer torch.mm' });
 // Backward MACs of one seed from the scores down to stage2: the data gradient of every Conv/Gemm
 // above stage2 costs the same MACs as its forward (ConvTranspose or flipped Conv, same operand
-// sizes); weight gradients are not needed. FLOPs = 2 · MACs. Seeds = 1000 one-hot + 2 per chunk.
-const seedsOurs = ours ? 1000 + 2 * Math.ceil(1000 / ours.mismatch_chunk) : null;
+// sizes); weight gradients are not needed. FLOPs = 2 · MACs. Seeds: ours the spectral basis + the
+// two statistic rows of the last run; the peer 1000 one-hot + one for μ.
+const seedsOurs = ours?.mismatch_seeds != null ? ours.mismatch_seeds + 2 : null;
 const flopsPerSeed = 2 * meta.macs_above.stage2;
 const gf = (seeds, ms) => (seeds && ms ? (seeds * flopsPerSeed) / (ms / 1e3) / 1e9 : null);
 metric('exact_sweep_gflops', ours ? gf(seedsOurs, median(ours.mismatch_exact_layer2)) : null, bestSweep ? gf(1001, bestSweep.med) : null, 'GFLOP/s', {
   counting: `seeds × 2 × ${meta.macs_above.stage2} MACs (forward MACs of the Conv/Gemm nodes above stage2; a data gradient costs its forward's MACs)`,
   seeds_ours: seedsOurs, of_matmul_peak: ours?.matmul ? gf(seedsOurs, median(ours.mismatch_exact_layer2)) / ours.matmul.gflops : null,
+  onehot_gflops: ours?.mismatch_exact_onehot_layer2 ? gf(1002, median(ours.mismatch_exact_onehot_layer2)) : null,
 });
 
 const out = {
@@ -149,7 +155,7 @@ const out = {
   model: 'torchvision ResNet-18, random weights (seed 0), 224x224, 1000 classes, opset 17; input seed 1',
   results,
   probe_curve: ours?.probe_curve?.map((c) => ({ ...c, pearson_mean: c.pearson.reduce((a, b) => a + b, 0) / c.pearson.length, rel_l2_mean: c.rel_l2.reduce((a, b) => a + b, 0) / c.rel_l2.length })) ?? null,
-  cold: { prepare_ms: ours?.prepare_ms ?? null, forward_cold_ms: ours?.forward_cold_ms ?? null, first_map_cold_ms: ours?.first_map_cold_ms ?? null, mismatch_compile_ms: ours?.mismatch_compile_ms ?? null },
+  cold: { head_basis_ms: ours?.head_basis_ms ?? null, head_rank: ours?.head_rank ?? null, prepare_ms: ours?.prepare_ms ?? null, forward_cold_ms: ours?.forward_cold_ms ?? null, first_map_cold_ms: ours?.first_map_cold_ms ?? null, mismatch_compile_ms: ours?.mismatch_compile_ms ?? null },
 };
 
 const f = (v) => (v == null ? '—' : Math.abs(v) >= 100 ? v.toFixed(0) : Math.abs(v) >= 1 ? v.toFixed(1) : v.toPrecision(3));
