@@ -23,8 +23,9 @@ export function liveGradientValues(pm: PreparedModel, layers: string[]): number 
   let liveSum = size(pm.scores.tensor), peak = liveSum;
   for (const n of [...a.graph.order].reverse()) {
     const outs = n.outputs.filter((o) => o && live.has(o));
-    if (!outs.length) continue;
-    const fresh = [...new Set(n.inputs.filter((i) => i && onPath(i) && !live.has(i)))];
+    const ins = n.inputs.filter((i) => i && onPath(i));
+    if (!outs.length || !ins.length) continue; // no rule runs where no input needs a gradient
+    const fresh = [...new Set(ins.filter((i) => !live.has(i)))];
     const freshSum = fresh.reduce((s, i) => s + size(i), 0);
     const temp = Math.max(...outs.map(size));
     peak = Math.max(peak, liveSum + freshSum + temp);
