@@ -7,6 +7,8 @@ export interface RuntimeOptions {
   threads: number;
   /** Keep freed buffers in onnxruntime's arena for the next run (faster reuse, memory held). Default off. */
   arena?: boolean;
+  /** Graph optimization level (default 'all'). */
+  optimization?: 'basic' | 'extended' | 'all';
 }
 
 export const defaultRuntimeOptions: RuntimeOptions = { threads: 0 };
@@ -14,7 +16,7 @@ export const defaultRuntimeOptions: RuntimeOptions = { threads: 0 };
 export async function createSession(bytes: Uint8Array, what: string, opts: RuntimeOptions = defaultRuntimeOptions): Promise<ort.InferenceSession> {
   try {
     return await ort.InferenceSession.create(bytes, {
-      graphOptimizationLevel: 'all',
+      graphOptimizationLevel: opts.optimization ?? 'all',
       executionProviders: ['cpu'],
       ...(opts.threads ? { intraOpNumThreads: opts.threads } : {}),
       interOpNumThreads: 1,

@@ -18,6 +18,8 @@ export const OPSET_RANGE = [11, 21] as const;
  * thumb, no source.
  */
 export const MAX_INPUT_VALUES = 2 ** 26;
+/** Longest input side accepted: 8192 pixels, beyond any classifier's input (rule of thumb, no source). */
+export const MAX_INPUT_SIDE = 8192;
 
 /** Op domains onnxruntime's CPU build knows besides the default one (from its docs, from memory). */
 const RUNTIME_DOMAINS = new Set(['', 'ai.onnx', 'ai.onnx.ml', 'com.microsoft', 'com.microsoft.nchwc', 'ai.onnx.preview.training']);
@@ -142,6 +144,9 @@ function pickImageInput(inputs: ValueInfoProto[], modelPath: string, anyRank: bo
   dims.forEach((d, i) => {
     if (typeof d === 'number' && d <= 0) {
       throw new UserError(`${modelPath}: input '${v.name}' ${shape}: dimension ${i} is ${d}`, 'a dimension must be positive or a named dynamic axis; re-export the model');
+    }
+    if (typeof d === 'number' && d > MAX_INPUT_SIDE) {
+      throw new UserError(`${modelPath}: input '${v.name}' ${shape}: dimension ${i} is ${d}, over the ${MAX_INPUT_SIDE} any image classifier takes`, 'export the model at the image size it was trained for');
     }
   });
   const values = dims.reduce<number>((a, d) => a * (typeof d === 'number' ? d : 1), 1);

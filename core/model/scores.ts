@@ -25,9 +25,10 @@ export function findScores(graph: GraphIndex, output: string, shapeOf: (t: strin
   }
   const dims = shapeOf(tensor);
   if (!dims) throw new UserError(`${modelPath}: cannot determine the shape of the scores tensor '${tensor}'`);
-  const numClasses = dims[dims.length - 1];
-  const others = dims.slice(0, -1).reduce((a, b) => a * b, 1);
-  if (others !== 1 || numClasses < 2) {
+  // One axis of R ≥ 2 classes, every other axis of size 1: [1,R], [R], and [1,R,1,1] as convolutional heads leave it.
+  const classAxes = dims.filter((d) => d !== 1);
+  const numClasses = classAxes.length === 1 ? classAxes[0] : 0;
+  if (numClasses < 2) {
     throw new UserError(`${modelPath}: output '${output}' has shape [${dims.join(',')}], not a vector of class scores`, 'the model must output one score per class, shape [1,R]');
   }
   return { tensor, source, numClasses };

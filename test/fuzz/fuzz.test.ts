@@ -7,7 +7,7 @@
 import { strict as assert } from 'node:assert';
 import { runFuzz, summarize } from './harness';
 
-const CI_CASES = 2000;
+const CI_CASES = 5000;
 const CI_SEED = 7;
 
 describe('fuzz (bounded CI run)', () => {

@@ -23,10 +23,14 @@ export interface FuzzOptions {
   workers?: number;
   /** Per-case time limit, ms (default 20 000). */
   timeoutMs?: number;
+  /** Per-worker resident memory limit, bytes (default 4 GiB): a case past it is killed, so a runaway allocation cannot take the machine down. */
+  memoryBytes?: number;
   /** Share of cases that are images (default 0.4). */
   imageShare?: number;
   /** Share of surviving model cases that also compute a map (default 0.5). */
   mapShare?: number;
+  /** Seed models (files; default SEED_MODELS). */
+  models?: string[];
   /** Seed images (files); made from the demo by makeSeedImages when absent. */
   images?: string[];
   onProgress?: (done: number, total: number) => void;
@@ -35,7 +39,7 @@ export interface FuzzOptions {
 }
 
 export interface FuzzCase { id: number; seed: number; kind: 'model' | 'image'; source: string; what: string; file: string; maps: boolean; request?: number }
-export interface FuzzFailure { case: FuzzCase; outcome: 'bug' | 'hang' | 'crash'; message: string }
+export interface FuzzFailure { case: FuzzCase; outcome: 'bug' | 'hang' | 'crash' | 'memory'; message: string }
 
 export interface FuzzReport {
   cases: number;
@@ -76,7 +80,8 @@ export async function makeSeedImages(dir: string): Promise<string[]> {
 
 /** The cases of a run, a pure function of (seed, count): case i uses seed `seed + i`. */
 function planCases(opts: FuzzOptions, images: string[], dir: string): FuzzCase[] {
-  const models = SEED_MODELS.map((f) => readFileSync(f));
+  const modelFiles = opts.models ?? SEED_MODELS;
+  const models = modelFiles.map((f) => readFileSync(f));
   const imageBytes = images.map((f) => readFileSync(f));
   const out: FuzzCase[] = [];
   for (let id = 0; id < opts.cases; id++) {
@@ -86,7 +91,7 @@ function planCases(opts: FuzzOptions, images: string[], dir: string): FuzzCase[]
     const pool = isImage ? imageBytes : models;
     const k = Math.floor(r() * pool.length);
     const m = isImage ? mutateImage(pool[k], r) : mutateModel(pool[k], r);
-    const source = isImage ? images[k] : SEED_MODELS[k];
+    const source = isImage ? images[k] : modelFiles[k];
     const ext = path.extname(source);
     const file = path.join(dir, `case-${id}${ext}`);
     writeFileSync(file, m.bytes);
@@ -146,7 +151,7 @@ async function runCases(cases: FuzzCase[], opts: FuzzOptions): Promise<FuzzRepor
   const timeoutMs = opts.timeoutMs ?? 20_000;
   let next = 0, done = 0;
   await new Promise<void>((resolve, reject) => {
-    const finish = (slot: Slot, c: FuzzCase, outcome: FuzzAnswer['outcome'] | 'hang' | 'crash', message: string, ms: number) => {
+    const finish = (slot: Slot, c: FuzzCase, outcome: FuzzAnswer['outcome'] | FuzzFailure['outcome'], message: string, ms: number) => {
       clearTimeout(slot.timer);
       slot.job = undefined;
       if (ms > report.slowest.ms) report.slowest = { case: c, ms, outcome };
@@ -162,8 +167,20 @@ async function runCases(cases: FuzzCase[], opts: FuzzOptions): Promise<FuzzRepor
       }
       done++;
       opts.onProgress?.(done, cases.length);
-      if (done === cases.length) resolve();
+      if (done === cases.length) { clearInterval(watchdog); resolve(); }
     };
+    const slots: Slot[] = [];
+    const memoryBytes = opts.memoryBytes ?? 4 * 2 ** 30;
+    const watchdog = setInterval(() => {
+      for (const slot of slots) {
+        const c = slot.job;
+        const rss = c && slot.child.pid ? residentBytes(slot.child.pid) : 0;
+        if (c && rss > memoryBytes) {
+          finish(slot, c, 'memory', `worker passed ${(memoryBytes / 2 ** 20).toFixed(0)} MiB resident (${(rss / 2 ** 20).toFixed(0)} MiB)`, Date.now() - slot.started);
+          slot.child.kill('SIGKILL');
+        }
+      }
+    }, 200);
     const feed = (slot: Slot) => {
       if (next >= cases.length) { slot.child.kill(); return; }
       const c = cases[next++];
@@ -196,13 +213,18 @@ async function runCases(cases: FuzzCase[], opts: FuzzOptions): Promise<FuzzRepor
       });
     };
     const width = Math.max(1, Math.min(opts.workers ?? 2, cases.length));
-    if (!cases.length) resolve();
+    if (!cases.length) { clearInterval(watchdog); resolve(); }
     for (let i = 0; i < width; i++) {
-      spawnWorker().then((child) => { const slot: Slot = { child, started: 0 }; attach(slot); feed(slot); }, reject);
+      spawnWorker().then((child) => { const slot: Slot = { child, started: 0 }; slots.push(slot); attach(slot); feed(slot); }, reject);
     }
   });
   report.wallMs = Date.now() - t0;
   return report;
+}
+
+/** Resident set size of a process (Linux /proc/<pid>/statm: pages), 0 where unavailable. */
+function residentBytes(pid: number): number {
+  try { return Number(readFileSync(`/proc/${pid}/statm`, 'utf8').split(' ')[1]) * 4096; } catch { return 0; }
 }
 
 /** Copies a failing case's input into `dir` as `<kind>-<outcome>-seed<S><ext>`, with a note of how it was made. */

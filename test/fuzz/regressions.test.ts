@@ -25,4 +25,16 @@ describe('fuzz regressions', () => {
     const r = await replayFiles([path.join(DIR, 'layernorm-empty-bias.onnx')], { timeoutMs: 60_000 });
     assert.equal(r.ok, 1, summarize(r));
   });
+
+  it('the 64×65535 input (fuzz seed 201553) is refused at load instead of running past the time limit', async () => {
+    const r = await replayFiles([path.join(DIR, 'huge-input-side.onnx')], { timeoutMs: 60_000 });
+    assert.equal(r.userErrors, 1, summarize(r));
+    assert.match([...r.distinctMessages.keys()][0], /dimension 3 is 65535, over the 8192/);
+  });
+
+  it('a tensor pooled to height 0 (fuzz seed 300285) is a UserError from the shape probe, not a SIGFPE', async () => {
+    const r = await replayFiles([path.join(DIR, 'zero-height-after-pooling.onnx')], { timeoutMs: 60_000 });
+    assert.equal(r.userErrors, 1, summarize(r));
+    assert.match([...r.distinctMessages.keys()][0], /shape probe.*'squeeze'/);
+  });
 });

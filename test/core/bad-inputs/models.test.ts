@@ -55,13 +55,21 @@ describe('bad models', () => {
     });
   }
 
-  it('tolerates what is odd but harmless: an output listed twice, a named dynamic batch axis', async () => {
+  it('tolerates what is odd but harmless: an output listed twice, a named dynamic batch axis, scores shaped [1,R,1,1]', async () => {
     const m = demoProto();
     m.graph!.output!.push({ ...m.graph!.output![0] });
     m.graph!.input![0].type!.tensor_type!.shape!.dim![0] = { dim_param: 'batch' };
     const file = path.join(mkdtempSync(path.join(tmp(), 'ok-')), 'odd.onnx');
     writeFileSync(file, encodeModelProto(m));
-    const r = await exerciseModel(engine, file, { maps: true });
+    assert.equal((await exerciseModel(engine, file, { maps: true })).maps, 1);
+    // A convolutional head's [1,R,1,1] output, as some exporters leave it.
+    const c = demoProto();
+    c.graph!.node!.push({ op_type: 'Reshape', name: 'to_4d', input: ['logits', 'shape_4d'], output: ['logits_4d'] });
+    c.graph!.initializer!.push({ name: 'shape_4d', dims: [4], data_type: 7, raw_data: new Uint8Array(BigInt64Array.from([1n, 8n, 1n, 1n]).buffer) });
+    c.graph!.output = [{ name: 'logits_4d' }];
+    const file4d = path.join(mkdtempSync(path.join(tmp(), 'ok-')), 'head4d.onnx');
+    writeFileSync(file4d, encodeModelProto(c));
+    const r = await exerciseModel(engine, file4d, { maps: true, request: 2 });
     assert.equal(r.maps, 1);
   });
 
