@@ -59,6 +59,15 @@ export async function regionFor(spec: { box?: Box; maskFile?: string }, size: { 
   return undefined;
 }
 
+/**
+ * Every kind the model supports: input-resolution kinds (detail, guided-evidence, gradient) need
+ * gradients down to the input, which an op without a gradient rule below some layer blocks.
+ */
+export function defaultTrustKinds(pm: PreparedModel): TrustMapKind[] {
+  const inputReached = !pm.layers.some((l) => l.blockedBy);
+  return TRUST_MAP_KINDS.filter((k) => inputReached || k === 'evidence' || k === 'contrast');
+}
+
 /** The layer trust checks use by default: the deepest explainable stage, else the deepest explainable layer. */
 export function defaultTrustLayer(pm: PreparedModel): string {
   const ok = pm.layers.filter((l) => !l.blockedBy);
@@ -74,7 +83,7 @@ export async function runTrustChecks(
   const tests = [...new Set(options.tests ?? TRUST_TESTS.filter((t) => t !== 'truth' || options.region))];
   for (const t of tests) if (!TRUST_TESTS.includes(t)) throw new UserError(`unknown trust check '${t}'`, `choose from ${TRUST_TESTS.join(', ')}`);
   if (tests.includes('truth') && !options.region) throw new UserError('the truth check needs the object region', 'give a mask image (--mask) or a box (--box x,y,w,h)');
-  const kinds = [...new Set(options.kinds ?? TRUST_MAP_KINDS)];
+  const kinds = [...new Set(options.kinds ?? defaultTrustKinds(pm))];
   for (const k of kinds) if (!TRUST_MAP_KINDS.includes(k)) throw new UserError(`map kind '${k}' is not checked for trust`, `choose from ${TRUST_MAP_KINDS.join(', ')}`);
   if (!kinds.length) throw new UserError('no map kind to check');
   const seed = (options.seed ?? DEFAULT_TRUST_SEED) >>> 0;

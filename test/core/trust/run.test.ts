@@ -7,7 +7,8 @@ import { strict as assert } from 'node:assert';
 import * as path from 'node:path';
 import { Engine } from '../../../core/engine/engine';
 import { imageInput, openModel, ModelContext } from '../../../core/cli/context';
-import { regionFor, runTrustChecks } from '../../../core/trust/run';
+import { defaultTrustKinds, regionFor, runTrustChecks } from '../../../core/trust/run';
+import type { PreparedModel } from '../../../core/plan/prepared';
 import { gradientSaliency } from '../../../core/trust/subject';
 import { checkToWebview } from '../../../webview/protocol';
 import { isUserError } from '../../../core/errors';
@@ -57,6 +58,12 @@ describe('runTrustChecks', () => {
     await assert.rejects(runTrustChecks(engine, ctx.pm, { data: input.data }, { tests: ['truth'] }), /truth check needs the object region/);
     await assert.rejects(runTrustChecks(engine, ctx.pm, { data: input.data }, { kinds: ['mismatch' as never] }), /map kind 'mismatch' is not checked/);
     await assert.rejects(runTrustChecks(engine, ctx.pm, { data: new Float32Array(10) }), /the input has 10 values but .* takes \[1,3,112,112\]/);
+  });
+
+  it('leaves out input-resolution kinds by default when an op without a gradient rule blocks the way to the input', () => {
+    const pm = (blocked: boolean) => ({ layers: [{ id: 'a', blockedBy: blocked ? { opType: 'Einsum', node: 'n' } : undefined }, { id: 'b' }] }) as unknown as PreparedModel;
+    assert.deepEqual(defaultTrustKinds(pm(false)), ['evidence', 'contrast', 'detail', 'guided-evidence', 'gradient']);
+    assert.deepEqual(defaultTrustKinds(pm(true)), ['evidence', 'contrast']);
   });
 
   it('gradient saliency equals max over channels of |∂z/∂x| by central finite differences (float32 forward, h = 1e-2)', async () => {
