@@ -7,6 +7,14 @@ export interface RuntimeOptions {
   threads: number;
   /** Keep freed buffers in onnxruntime's arena for the next run (faster reuse, memory held). Default off. */
   arena?: boolean;
+  /**
+   * Let idle intra-op threads spin between ops (onnxruntime's default). Off by default: when other
+   * processes share the cores (the editor, a laptop's background work) a spinning pool waits on
+   * descheduled threads at every op; on the 2-core bench machine under load, the first map took
+   * 49–89 ms with spinning off against 205–244 ms with it on, a 64-seed chunk 2.2–2.5 s against
+   * 3.4–4.9 s (test/bench, 2 Dec 2026).
+   */
+  spinning?: boolean;
   /** Graph optimization level (default 'all'). */
   optimization?: 'basic' | 'extended' | 'all';
 }
@@ -24,6 +32,7 @@ export async function createSession(bytes: Uint8Array, what: string, opts: Runti
       // returns to the system after each chunk (feasibility study finding).
       enableCpuMemArena: opts.arena ?? false,
       logSeverityLevel: 3,
+      extra: { session: { intra_op: { allow_spinning: opts.spinning ? '1' : '0' } } },
     });
   } catch (e) {
     throw new UserError(`onnxruntime cannot load ${what}: ${firstLine((e as Error).message)}`, 'the model may use ops or types this runtime does not support');
@@ -44,8 +53,17 @@ export async function runSession(s: ort.InferenceSession, feeds: Feeds, fetch: s
   }
 }
 
-function firstLine(s: string): string {
-  return s.split('\n')[0].slice(0, 300);
+/**
+ * onnxruntime's reason, shortened: its graph errors repeat the node's whole signature before the
+ * reason, and its status errors prefix source locations; keep the node and the reason.
+ */
+export function firstLine(s: string): string {
+  let line = s.split('\n')[0];
+  const node = /^This is an invalid model\. In Node, \("([^"]*)", ([\w.]+),.*?, Error (.*)$/.exec(line);
+  if (node) line = `${node[2]} node '${node[1]}': ${node[3]}`;
+  const status = line.lastIndexOf('[ONNXRuntimeError] : ');
+  if (status >= 0) line = line.slice(status).replace(/^\[ONNXRuntimeError\] : \d+ : \w+ : /, '');
+  return line.replace(/^(Exception during initialization: )?\S+\.(cc|h):\d+ ([\w:~]+ )?/, '').slice(0, 300);
 }
 
 export { ort };
