@@ -15,6 +15,8 @@ export interface SeedBatch {
   base: Float32Array;
   /** [K] softmax coefficients. */
   coef: Float32Array;
+  /** [K,2] weights of the top-1 and top-2 one-hots (plans composed with rankSeeds; zeros when absent). */
+  rank?: Float32Array;
   k: number;
 }
 
@@ -74,6 +76,7 @@ export class Engine {
       [pm.model.input.name]: floatTensor(input, pm.inputDims),
       [cp.plan.seedBase]: floatTensor(seeds.base, [seeds.k, R]),
       [cp.plan.seedCoef]: floatTensor(seeds.coef, [seeds.k, 1]),
+      ...(cp.plan.seedRank ? { [cp.plan.seedRank]: floatTensor(seeds.rank ?? new Float32Array(seeds.k * Math.min(2, R)), [seeds.k, Math.min(2, R)]) } : {}),
       ...extra,
     };
     if (cp.split && cp.plan.split) return abortable(this.runSplit(pm, cp, input, feeds, fetch), signal);

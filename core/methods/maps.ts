@@ -227,3 +227,34 @@ export function onlyPoolingAndLinearToScores(pm: PreparedModel, layer: string): 
   }
   return true;
 }
+
+export interface PredictionMaps { scores: Float32Array; fact: number; foil: number; maps: MapResult[] }
+
+/**
+ * From a new image to the evidence or contrast maps of its own prediction in one native run:
+ * the plan's seeds take the one-hots of the two largest scores inside the graph (fact = top-1,
+ * foil = top-2; ties go to the lower index, as ONNX TopK orders them), so no separate forward
+ * is needed for the prediction. Same maps as explainMaps with those classes.
+ */
+export async function explainPrediction(engine: Engine, pm: PreparedModel, input: Float32Array, kind: 'evidence' | 'contrast', layers: string[],
+  opts: { contrast?: ContrastVariant; signal?: AbortSignal } = {}): Promise<PredictionMaps> {
+  const R = pm.scores.numClasses;
+  if (kind === 'contrast' && R < 2) throw new UserError('a contrast map needs at least two classes');
+  const cp = await engine.compile(pm, { passes: [{ relu: 'standard', layers, heads: ['cam'] }], rankSeeds: true });
+  const loss = kind === 'contrast' && (opts.contrast ?? 'margin') === 'loss';
+  // margin: e_top1 − e_top2; loss: p − e_top2 (DESIGN §4); evidence: e_top1.
+  const rank = Float32Array.from(kind === 'evidence' ? [1, 0] : loss ? [0, -1] : [1, -1]).subarray(0, Math.min(2, R));
+  const fetch = [cp.plan.scoresOutput, ...layers.flatMap((l) => { const o = cp.plan.outputs.get(headKey(0, 'cam', l))!; return [o.raw!, o.up!]; })];
+  const out = await engine.run(pm, cp, input, { base: new Float32Array(R), coef: Float32Array.of(loss ? 1 : 0), rank, k: 1 }, fetch, {}, opts.signal);
+  const scores = Float32Array.from(out[cp.plan.scoresOutput].data as Float32Array);
+  let fact = 0;
+  for (let i = 1; i < R; i++) if (scores[i] > scores[fact]) fact = i;
+  let foil = fact === 0 ? 1 : 0;
+  for (let i = 0; i < R; i++) if (i !== fact && scores[i] > scores[foil]) foil = i;
+  const question: Question = kind === 'evidence' ? { kind, fact } : { kind, fact, foil, contrast: opts.contrast ?? 'margin' };
+  const maps = layers.map((layer) => {
+    const o = cp.plan.outputs.get(headKey(0, 'cam', layer))!;
+    return { question, layer, raw: slice(out[o.raw!], 0), up: slice(out[o.up!], 0) };
+  });
+  return { scores, fact, foil, maps };
+}

@@ -29,6 +29,8 @@ export interface PlanRequest {
   expose?: string[];
   /** Also split the plan into forward and backward graphs (for sweeps of many seed chunks). */
   split?: boolean;
+  /** Add seeds on the predicted classes: row k gains c_k1·e_top1 + c_k2·e_top2 (input ff_seed_rank [K,2]). */
+  rankSeeds?: boolean;
 }
 
 /** Output names of one head at one layer: `raw` at layer resolution, `up` at input resolution. */
@@ -39,6 +41,8 @@ export interface ComposedPlan {
   key: string;
   seedBase: string;
   seedCoef: string;
+  /** [K,2] weights of the top-1 and top-2 one-hots, when the request asked for rank seeds. */
+  seedRank?: string;
   /** Mismatch accumulators to feed ([1,C,H,W] per layer) and the scalar weight of the sum. */
   accInputs: Map<string, string>;
   accScale?: string;
@@ -53,6 +57,7 @@ export interface ComposedPlan {
 
 export const SEED_BASE = 'ff_seed_base';
 export const SEED_COEF = 'ff_seed_coef';
+export const SEED_RANK = 'ff_seed_rank';
 export const ACC_SCALE = 'ff_acc_scale';
 export const SWEEP_FROM = 'ff_sweep_from';
 
@@ -71,7 +76,14 @@ export function composePlan(pm: PreparedModel, req: PlanRequest): ComposedPlan {
 
   // Seeds: base + coef·softmax(z), reshaped to [K, ...scoresShape].
   const probs = b.op1('Softmax', [b.op1('Reshape', [pm.scores.tensor, b.constI64([1, R])])], { axis: { i: -1 } });
-  const seeds = b.op1('Add', [SEED_BASE, b.op1('Mul', [SEED_COEF, probs])]);
+  let seeds = b.op1('Add', [SEED_BASE, b.op1('Mul', [SEED_COEF, probs])]);
+  if (req.rankSeeds) {
+    // The prediction decides fact and foil inside the run: one-hots of the two largest scores.
+    const flat = b.op1('Reshape', [pm.scores.tensor, b.constI64([1, R])]);
+    const top = b.op('TopK', [flat, b.constI64([Math.min(2, R)])], { axis: { i: -1 } }, 2)[1];
+    const hot = b.op1('OneHot', [b.op1('Reshape', [top, b.constI64([-1])]), b.constI64([R]), b.constF([0, 1], [2])], { axis: { i: -1 } });
+    seeds = b.op1('Add', [seeds, b.op1('MatMul', [SEED_RANK, hot])]);
+  }
   const seed = b.op1('Reshape', [seeds, b.constI64([-1, ...scoresShape])]);
   const seedCount = b.op1('Slice', [b.op1('Shape', [SEED_BASE]), b.constI64([0]), b.constI64([1])]);
 
@@ -138,10 +150,10 @@ export function composePlan(pm: PreparedModel, req: PlanRequest): ComposedPlan {
   const scoresOutput = 'ff_out/scores';
   b.opTo('Identity', [pm.scores.tensor], [scoresOutput]);
   graphOutputs.push(scoresOutput);
-  const model = assemble(pm, b, graphOutputs, forwardOutputs, accInputs, accScale, sweepFrom);
+  const model = assemble(pm, b, graphOutputs, forwardOutputs, accInputs, accScale, sweepFrom, !!req.rankSeeds);
   const key = JSON.stringify(req);
   const split = req.split ? splitPlan(model, inputName, [SEED_BASE, SEED_COEF, ...accInputs.values(), ...(accScale ? [accScale] : []), ...(sweepFrom ? [sweepFrom] : [])]) : undefined;
-  return { bytes: encodeModelProto(model), key, split, seedBase: SEED_BASE, seedCoef: SEED_COEF, accInputs, accScale, sweepFrom, scoresOutput, outputs };
+  return { bytes: encodeModelProto(model), key, split, seedBase: SEED_BASE, seedCoef: SEED_COEF, seedRank: req.rankSeeds ? SEED_RANK : undefined, accInputs, accScale, sweepFrom, scoresOutput, outputs };
 }
 
 export function isNhwc(inputDims: number[]): boolean {
@@ -203,7 +215,7 @@ function mismatchHead(b: GraphBuilder, grid: { a: string; g?: string }, layer: L
 }
 
 function assemble(pm: PreparedModel, b: GraphBuilder, outputs: string[], forwardOutputs: Map<number, Map<number, string>>,
-  accInputs: Map<string, string>, accScale: string | undefined, sweepFrom: string | undefined): ModelProto {
+  accInputs: Map<string, string>, accScale: string | undefined, sweepFrom: string | undefined, rankSeeds: boolean): ModelProto {
   const original = pm.model.proto;
   const nodes = pm.nodes.map((n, i) => {
     const extra = forwardOutputs.get(i);
@@ -218,6 +230,7 @@ function assemble(pm: PreparedModel, b: GraphBuilder, outputs: string[], forward
     f(pm.model.input.name, pm.inputDims),
     f(SEED_BASE, ['K', R]),
     f(SEED_COEF, ['K', 1]),
+    ...(rankSeeds ? [f(SEED_RANK, ['K', Math.min(2, R)])] : []),
     ...[...accInputs].map(([layer, n]) => f(n, pm.analysis.shape(layer).length === 4 ? [1, ...pm.analysis.shape(layer).slice(1)] : gridShape(pm, layer))),
     ...(accScale ? [f(accScale, [])] : []),
     ...(sweepFrom ? [{ name: sweepFrom, type: { tensor_type: { elem_type: TensorType.INT64, shape: { dim: [{ dim_value: 1 }] } } } }] : []),

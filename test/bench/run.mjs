@@ -106,7 +106,8 @@ const bestSweep = [peer.batched, peer.vmap].filter((x) => x && x.times)
 
 metric('forward', ours?.forward, peer.basic?.forward, 'ms');
 metric('first_map_all_stages', ours?.first_map_all_stages, peer.basic?.first_map_all_stages, 'ms', {
-  ours_what: 'scores() for fact/foil, then explainMaps contrast margin at stage1..stage4 in one run',
+  ours_what: 'explainPrediction: contrast margin of top-1 vs top-2 at stage1..stage4, prediction and maps in one run',
+  ours_two_step_ms: ours?.first_map_two_step ? median(ours.first_map_two_step) : null,
   peer_what: 'forward with hooks at stage1..4 (frozen weights), backward of z_fact − z_foil, Grad-CAM at each stage',
   ours_cold_ms: ours?.first_map_cold_ms ?? null,
 });
