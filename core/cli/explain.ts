@@ -59,10 +59,21 @@ export async function explainCommand(engine: Engine, args: CliArgs): Promise<num
   process.once('SIGINT', onInt);
   const outputs: unknown[] = [];
   const images: { image: string; expected: string | null; prediction: unknown }[] = [];
+  // Over several images (a CI folder run) an unreadable image is reported and skipped, so one
+  // bad file does not hide the maps of the rest; the run still exits 2 at the end.
+  const skipped: { image: string; error: string }[] = [];
   let prediction: unknown;
   try {
     for (const file of files) {
-      const input = v.input ? await tensorInput(ctx, file) : await imageInput(ctx, file);
+      let input: ModelInput;
+      try {
+        input = v.input ? await tensorInput(ctx, file) : await imageInput(ctx, file);
+      } catch (e) {
+        if (!(e instanceof UserError) || files.length === 1) throw e;
+        skipped.push({ image: path.resolve(file), error: e.oneLine() });
+        process.stderr.write(`${e.oneLine()} (skipped)\n`);
+        continue;
+      }
       const p = softmax(await engine.scores(ctx.pm, input.data));
       const top = ranked(p, ctx.labels, Math.min(5, p.length));
       prediction = top;
@@ -91,7 +102,11 @@ export async function explainCommand(engine: Engine, args: CliArgs): Promise<num
   } finally {
     process.off('SIGINT', onInt);
   }
-  if (v.json) process.stdout.write(JSON.stringify({ outputs, prediction, images }) + '\n');
+  if (v.json) process.stdout.write(JSON.stringify({ outputs, prediction, images, skipped }) + '\n');
+  if (skipped.length) {
+    process.stderr.write(`${skipped.length} of ${files.length} images could not be read; the others were explained\n`);
+    return 2;
+  }
   return 0;
 }
 

@@ -1,7 +1,7 @@
 /** The `factfoil` command as CI calls it: a subprocess of dist/cli.js. */
 import { strict as assert } from 'node:assert';
 import { execFileSync, spawnSync } from 'node:child_process';
-import { mkdtempSync, cpSync, existsSync, readFileSync } from 'node:fs';
+import { mkdtempSync, cpSync, existsSync, readFileSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import * as path from 'node:path';
 import { readNpy } from '../../../core/io/npy';
@@ -67,6 +67,19 @@ describe('factfoil CLI', () => {
     const map = out.outputs.find((o: { image: string }) => o.image === wrong.image);
     assert.deepEqual([map.map, map.fact, map.foil], ['contrast', 'washer', 'hex-nut']);
     assert.match(path.basename(map.png), /^hex-nut-0088\.contrast\..+\.washer-vs-hex-nut\.png$/);
+  });
+
+  it('explain over a folder skips an unreadable image, explains the rest and exits 2', () => {
+    const dir = mkdtempSync(path.join(tmpdir(), 'ff-'));
+    cpSync(path.join(FIXTURES, 'parts/demo/bolt'), path.join(dir, 'bolt'), { recursive: true });
+    writeFileSync(path.join(dir, 'bolt', 'broken.png'), Buffer.from('not an image at all'));
+    const r = run(['explain', dir, '--model', path.join(FIXTURES, 'parts/parts-sorter.onnx'), '--layer', 'last', '--json']);
+    assert.equal(r.status, 2, r.stderr);
+    const out = JSON.parse(r.stdout);
+    assert.equal(out.images.length, 2);
+    assert.equal(out.skipped.length, 1);
+    assert.match(out.skipped[0].error, /broken\.png/);
+    assert.match(r.stderr, /1 of 3 images could not be read/);
   });
 
   it('user errors exit 2 with one line and no stack trace', () => {
