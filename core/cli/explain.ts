@@ -4,6 +4,7 @@ import * as path from 'node:path';
 import { Engine } from '../engine/engine';
 import { UserError } from '../errors';
 import { explainMaps, MapKind, MAP_KINDS, Question, Estimate, MapResult } from '../methods/maps';
+import { PROBE_DESIGNS, type ProbeDesign } from '../methods/mismatch-seeds';
 import { openModel, imageInput, tensorInput, softmax, ranked, ModelContext, ModelInput } from './context';
 import { resolveClass, expectedLabelFromPath } from '../io/labels';
 import { mapFileStem, layerShortName, writeUniqueFiles } from '../io/naming';
@@ -36,9 +37,11 @@ function expandImages(items: string[]): string[] {
 
 function parseEstimate(arg: string | undefined): Estimate {
   if (!arg || arg === 'exact') return { mode: 'exact' };
-  const m = /^probe:(\d+)$/.exec(arg);
-  if (!m || Number(m[1]) < 1) throw new UserError(`--estimate must be exact or probe:<K>, not '${arg}'`);
-  return { mode: 'probe', k: Number(m[1]), seed: 1 };
+  const m = /^probe:(\d+)(?::([a-z]+))?$/.exec(arg);
+  if (!m || Number(m[1]) < 1) throw new UserError(`--estimate must be exact or probe:<K>[:<design>], not '${arg}'`);
+  const design = m[2] as ProbeDesign | undefined;
+  if (design && !PROBE_DESIGNS.includes(design)) throw new UserError(`unknown probe design '${design}'`, `choose from ${PROBE_DESIGNS.join(', ')}`);
+  return { mode: 'probe', k: Number(m[1]), seed: 1, ...(design ? { design } : {}) };
 }
 
 export async function explainCommand(engine: Engine, args: CliArgs): Promise<number> {
@@ -138,7 +141,7 @@ export async function saveMap(ctx: ModelContext, input: ModelInput, m: MapResult
       map: { kind: q.kind, variant: q.kind === 'contrast' ? q.contrast ?? 'margin' : q.kind === 'mismatch' ? q.mismatch ?? 'weighted' : null, layer: { id: m.layer, shape: layerInfo?.shape ?? ctx.pm.inputDims.slice(1) } },
       fact: { index: q.fact, label: ctx.labels[q.fact] },
       foil: q.foil !== undefined ? { index: q.foil, label: ctx.labels[q.foil] } : null,
-      estimate: m.estimate ? (m.estimate.mode === 'exact' ? { mode: 'exact' } : { mode: 'probe', k: m.estimate.k, seed: m.estimate.seed }) : null,
+      estimate: m.estimate ? (m.estimate.mode === 'exact' ? { mode: 'exact' } : { mode: 'probe', k: m.estimate.k, seed: m.estimate.seed, ...(m.estimate.design ? { design: m.estimate.design } : {}) }) : null,
       normalization: display ? { kind: 'fixed', lo: range.lo, hi: range.hi, colormap, opacity } : { kind: 'percentile', p: 99.5, lo: range.lo, hi: range.hi, colormap, opacity },
       prediction: top,
       files: { png: path.basename(c.paths[0]), ...(raw ? { raw: path.basename(c.paths[2]) } : {}) },

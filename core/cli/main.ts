@@ -17,7 +17,7 @@ const USAGE = `usage:
   factfoil layers  <model.onnx> [--json]
   factfoil predict <image> --model <m.onnx> [--labels <file>] [--top <n>] [--json]
   factfoil explain <image>... --model <m.onnx> [--map <kind>] [--fact <c>] [--foil <c>] [--contrast margin|loss]
-                   [--mismatch weighted|gradient] [--layer <tensor|index|last|stages|all>] [--estimate exact|probe:<K>]
+                   [--mismatch weighted|gradient] [--layer <tensor|index|last|stages|all>] [--estimate exact|probe:<K>[:<design>]]
                    [--input <x.npy>] [--out <dir>] [--raw] [--json]
   factfoil grad    --model <m.onnx> (--input <x.npy> | <image>) --layer <tensor> --target <class> [--loss logit|ce] --out <g.npy>
   factfoil check   <image|folder>... --model <m.onnx> [--mask <m.png> | --box x,y,w,h | --masks <dir>]

@@ -51,7 +51,8 @@ export interface FactfoilRecord {
   fact: ClassRef;
   foil: ClassRef | null;
   /** mismatch only: 'exact' or 'probe' with K seeds drawn from `seed`. */
-  estimate: { mode: 'exact' } | { mode: 'probe'; k: number; seed: number } | null;
+  /** design: how the K probe seeds were drawn (core/methods/mismatch-seeds.ts); absent in records made before it existed. */
+  estimate: { mode: 'exact' } | { mode: 'probe'; k: number; seed: number; design?: string } | null;
   normalization: {
     /** 'percentile' | 'max' | 'fixed' | 'symmetric' (DisplayRangeMode kind), or 'shared' over a group. */
     kind: string;
@@ -166,6 +167,7 @@ export function validateRecord(json: unknown, file: string): FactfoilRecord {
     if (est.mode === 'probe') {
       need(est, 'estimate.', 'k', (v) => isInt(v) && (v as number) > 0, 'a positive whole number');
       need(est, 'estimate.', 'seed', (v) => Number.isInteger(v), 'a whole number');
+      if (est.design !== undefined) need(est, 'estimate.', 'design', (v) => typeof v === 'string' && v.length > 0, 'a probe design name');
     }
   }
 

@@ -20,6 +20,8 @@ import { pearson } from '../../core/metrics/correlation';
 import { computeGeometry } from '../../core/image/preprocess';
 import { displayRange } from '../../core/image/normalize';
 import { renderOverlayPng } from '../../core/image/overlay';
+import { colorizeOntoImage } from '../../webview/map-render';
+import { colorIndexFor, colormapTable } from '../../webview/colormap';
 import type { DecodedImage } from '../../core/image/decode';
 import { mulberry32 } from '../../core/metrics/random';
 
@@ -133,19 +135,32 @@ async function main(): Promise<void> {
   await firstMapTwoStep();
   res.first_map_two_step = (await timed(repeats, firstMapTwoStep)).times;
 
-  // step_layer: maps are in hand; the next stage's overlay is display range + colour + PNG.
+  // step_layer: what the panel pays per key press. All stages' maps arrive with the first run
+  // (float32 at the model input); stepping only colours the next one onto the image at its own
+  // size (webview/view/paint.ts: display range, colorizeOntoImage, then putImageData) — the very
+  // functions the webview bundles, run here in Node. step_layer_png: what Save and the CLI pay on
+  // top (the same overlay blended onto the photo and PNG-encoded by sharp).
   const img = syntheticPhoto();
   const geom = computeGeometry(img.width, img.height, [224, 224], 'crop');
+  const panelGeom = { kind: 'crop' as const, scaleX: geom.source.width / geom.target.width, scaleY: geom.source.height / geom.target.height,
+    offsetX: geom.source.x - geom.target.x * (geom.source.width / geom.target.width), offsetY: geom.source.y - geom.target.y * (geom.source.height / geom.target.height) };
   const steps: number[] = [];
+  const stepsPng: number[] = [];
   let pngBytes = 0;
   for (let r = 0; r < Math.max(3, repeats); r++) for (const m of fm.out) {
     const t0 = performance.now();
-    const png = await renderOverlayPng(img, m.raw, geom, { colormap: 'viridis', opacity: 0.5, range: displayRange(m.raw.data) });
+    const range = displayRange(m.up.data);
+    const px = colorizeOntoImage(m.up, panelGeom, img.width, img.height, colorIndexFor(range, 'viridis'), colormapTable('viridis'));
     steps.push(performance.now() - t0);
+    if (px.length !== img.width * img.height * 4) throw new Error('step_layer: wrong overlay size');
+    const t1 = performance.now();
+    const png = await renderOverlayPng(img, m.up, geom, { colormap: 'viridis', opacity: 0.5, range });
+    stepsPng.push(performance.now() - t1);
     pngBytes = png.length;
   }
   res.step_layer = steps;
-  res.step_layer_image = `${img.width}x${img.height} original, centre crop to 224x224, viridis, ${pngBytes} B PNG`;
+  res.step_layer_png = stepsPng;
+  res.step_layer_image = `${img.width}x${img.height} original, centre crop to 224x224, viridis; PNG ${pngBytes} B`;
 
   // exact mismatch at stage2: the head's spectral basis is computed once per model (timed
   // apart), then a small probe warms the compiled plan.

@@ -129,7 +129,8 @@ metric('mismatch_probe32_layer2', ours?.mismatch_probe32_layer2, null, 'ms', {
   fraction_of_exact: ours ? median(ours.mismatch_probe32_layer2) / median(ours.mismatch_exact_layer2) : null,
   probe: `${ours?.probe32_design ?? '?'}, seed 1`,
 });
-metric('step_layer', ours?.step_layer, null, 'ms', { what: ours?.step_layer_image ?? null });
+metric('step_layer', ours?.step_layer, null, 'ms', { what: `panel path: display range + colorizeOntoImage at image size (${ours?.step_layer_image ?? '?'})` });
+metric('step_layer_png', ours?.step_layer_png, null, 'ms', { what: 'save/CLI path: the overlay blended onto the photo and PNG-encoded (sharp)' });
 metric('peak_rss_mib', oursRss?.peak_rss_mib ?? null, bestSweep?.peak_rss_mib ?? null, 'MiB', {
   what: 'whole-process peak RSS of a child doing one exact sweep at stage2 (default 1 GiB budget); peer: the process of its best path',
   ours_floor_mib: oursBase?.peak_rss_mib ?? null,

@@ -82,6 +82,19 @@ describe('factfoil CLI', () => {
     assert.match(r.stderr, /1 of 3 images could not be read/);
   });
 
+  it('a probe estimate records K, seed and design, and the design can be chosen', () => {
+    const dir = mkdtempSync(path.join(tmpdir(), 'ff-'));
+    cpSync(path.join(FIXTURES, 'parts/demo/gear'), path.join(dir, 'gear'), { recursive: true });
+    const base = ['explain', path.join(dir, 'gear'), '--model', path.join(FIXTURES, 'parts/parts-sorter.onnx'), '--map', 'mismatch', '--layer', 'stage2', '--json'];
+    for (const [arg, design] of [['probe:4', 'rescaled'], ['probe:4:rademacher', 'rademacher']]) {
+      const r = run([...base, '--estimate', arg]);
+      assert.equal(r.status, 0, r.stderr);
+      const record = JSON.parse(readFileSync(JSON.parse(r.stdout).outputs[0].record, 'utf8'));
+      assert.deepEqual(record.estimate, { mode: 'probe', k: 4, seed: 1, design });
+    }
+    assert.equal(run([...base, '--estimate', 'probe:4:sideways']).status, 2);
+  });
+
   it('user errors exit 2 with one line and no stack trace', () => {
     for (const args of [['explain', 'no-such.png', '--model', path.join(FIXTURES, 'parts/parts-sorter.onnx')], ['layers', 'nothing.onnx'], ['grad', '--model', path.join(FIXTURES, 'arch/resnet/model.onnx'), '--input', path.join(FIXTURES, 'arch/resnet/input.npy'), '--layer', 'nope', '--target', '1', '--out', '/tmp/x.npy'], ['frobnicate']]) {
       const r = run(args);
