@@ -236,7 +236,8 @@ export class PanelRelay {
       const req = this.d.engine.request({
         op: 'trust', viewId: view.viewId, layer: m.layer, fact: m.fact, tests: m.tests,
         ...(m.foil !== undefined ? { foil: m.foil } : {}), ...(m.kinds ? { kinds: m.kinds } : {}), ...(m.box ? { box: m.box } : {}),
-        ...(m.maskFile ? { maskFile: m.maskFile } : {}), ...(m.seed !== undefined ? { seed: m.seed } : {}),
+        // A file path from the webview is never followed: the engine finds the image's own mask.
+        ...(m.seed !== undefined ? { seed: m.seed } : {}),
       }, {
         onProgress: (done, total, message) => {
           this.post({ type: 'trustProgress', id: m.id, done, total, ...(message ? { message: message.slice(0, 2000) } : {}) });

@@ -3,13 +3,14 @@
  * small report beside it (or in --out): the JSON figures and PNG charts, never overwriting.
  * Several images (or a folder) also get a summary, mean ± sd per figure and map kind.
  */
-import { existsSync, readdirSync, statSync } from 'node:fs';
+import { readdirSync, statSync } from 'node:fs';
 import * as path from 'node:path';
 import sharp from 'sharp';
 import { Engine } from '../engine/engine';
 import { UserError } from '../errors';
 import { layerShortName, sanitizeNamePart, writeUniqueFiles } from '../io/naming';
 import { resolveClass } from '../io/labels';
+import { findMask, ImageItem } from '../io/masks';
 import { chartRow, lineChart, svgText, SvgNode } from '../trust/chart';
 import { cascadeChart, driftCharts, EXPLAIN, faithfulnessCharts } from '../trust/figures';
 import { TRUST_MAP_KINDS, TRUST_TESTS, TrustMapKind, TrustReport, TrustTest } from '../trust/report';
@@ -25,7 +26,7 @@ const IMAGE_EXT = /\.(png|jpe?g|webp|tiff?|gif|avif)$/i;
 /** Files this tool wrote (maps, trust charts) are not test images. */
 const OUR_OUTPUT = /\.(evidence|contrast|mismatch|expectancy|detail|guided-evidence|trust)\./;
 
-interface ImageItem { file: string; root?: string }
+
 
 /** Images named or found under folders (recursively, sorted), skipping mask folders and our own outputs. */
 function expandImages(items: string[]): ImageItem[] {
@@ -42,27 +43,6 @@ function expandImages(items: string[]): ImageItem[] {
     if (st.isDirectory()) walk(item, item); else out.push({ file: item });
   }
   return out;
-}
-
-/**
- * The mask of an image by convention: `<masks>/<path below the folder argument>` with --masks;
- * else `<stem>.mask.png` beside the image; else, for any folder F above the image, the same
- * relative path under a sibling folder `F-masks` (the demo's `eval/` and `eval-masks/` layout).
- */
-export function findMask(item: ImageItem, masksDir?: string): string | undefined {
-  const file = path.resolve(item.file);
-  if (masksDir) {
-    const rel = item.root ? path.relative(path.resolve(item.root), file) : path.basename(file);
-    for (const c of [path.join(masksDir, rel), path.join(masksDir, path.basename(file))]) if (existsSync(c)) return c;
-    return undefined;
-  }
-  const beside = path.join(path.dirname(file), `${path.basename(file, path.extname(file))}.mask.png`);
-  if (existsSync(beside)) return beside;
-  for (let dir = path.dirname(file); path.dirname(dir) !== dir; dir = path.dirname(dir)) {
-    const candidate = path.join(`${dir}-masks`, path.relative(dir, file));
-    if (existsSync(candidate)) return candidate;
-  }
-  return undefined;
 }
 
 function parseList<T extends string>(arg: string | undefined, allowed: readonly T[], what: string): T[] | undefined {

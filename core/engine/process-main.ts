@@ -18,6 +18,7 @@ import { displayRange, DEFAULT_DISPLAY_RANGE } from '../image/normalize';
 import { encodePng } from '../image/overlay';
 import type { Geometry, PreprocessSpec } from '../image/preprocess';
 import { regionFor, runTrustChecks } from '../trust/run';
+import { findMask } from '../io/masks';
 import type { TrustReport } from '../trust/report';
 import {
   ENGINE_PROTOCOL_VERSION, EngineMap, EngineOp, EngineRequest, EngineRequestOf, EngineResultOf, ErrorKind, FromEngine,
@@ -253,7 +254,13 @@ export class EngineService {
   private async trust(req: EngineRequestOf<'trust'>, rc: RequestContext): Promise<TrustReport> {
     const v = this.view(req.viewId);
     const img = v.input.image!;
-    const region = await regionFor({ box: req.box, maskFile: req.maskFile }, { width: img.width, height: img.height });
+    // Without a box, the object's mask is looked up by the conventions `factfoil check` uses
+    // (<stem>.mask.png beside the image, or a <folder>-masks mirror).
+    const maskFile = req.maskFile ?? (req.box || !req.tests.includes('truth') ? undefined : findMask({ file: v.input.path }));
+    if (req.tests.includes('truth') && !req.box && !maskFile) {
+      throw new UserError(`no object mask found for ${path.basename(v.input.path)}`, `mark the object with a box, or put its mask beside the image as ${path.basename(v.input.path, path.extname(v.input.path))}.mask.png`);
+    }
+    const region = await regionFor({ box: req.box, maskFile }, { width: img.width, height: img.height });
     return runTrustChecks(this.engine, v.ctx.pm, { data: v.input.data, layout: v.ctx.spec.layout, geometry: v.input.geometry }, {
       tests: req.tests, kinds: req.kinds, layer: req.layer, fact: req.fact, foil: req.foil, region, seed: req.seed,
     }, (done, total, message) => rc.progress(done, total, message), rc.signal);

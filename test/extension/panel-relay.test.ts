@@ -270,6 +270,12 @@ describe('panel relay (extension host side of the panel)', () => {
     relay.receive({ type: 'requestTrust', id: 22, layer: 'stage1', fact: 1, tests: ['truth'], box: { x: 1, y: 2, width: 3, height: 4 }, maskFile: '/m.png' });
     await tick();
     assert.equal(engine.calls.filter((c) => c.req.op === 'trust').length, 1);
+    // A mask path from the webview is not passed on: the engine looks up the image's own mask.
+    relay.receive({ type: 'requestTrust', id: 23, layer: 'stage1', fact: 1, tests: ['truth'], maskFile: '/etc/passwd' });
+    await tick();
+    const trusts = engine.calls.filter((c) => c.req.op === 'trust');
+    assert.equal(trusts.length, 2);
+    assert.equal((trusts[1].req as { maskFile?: string }).maskFile, undefined);
   });
 
   it('initMessage and savedMessage say where things are', () => {

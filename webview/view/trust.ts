@@ -15,7 +15,7 @@ export interface TrustQuestion { layer?: string; fact: number; foil?: number }
 const TEST_WORDS: Record<TrustTest, [string, string]> = {
   sanity: ['Weight randomization', 'does the map change when the learned weights are destroyed?'],
   faithfulness: ['Deletion and insertion', 'do its top pixels carry the prediction?'],
-  truth: ['Against the object', 'does it fall on the box you mark below?'],
+  truth: ['Against the object', 'does it fall on the box below, or on the image\'s mask (<name>.mask.png)?'],
   robustness: ['Blur and noise', 'does it stay put under small input changes?'],
 };
 
@@ -65,9 +65,9 @@ export class TrustView {
     const fact = this.labels[q.fact] ?? `class ${q.fact}`;
     this.target.textContent = `Checks the maps at ${layer?.short ?? q.layer ?? 'the last stage'} for ${fact}${q.foil !== undefined && this.labels[q.foil] ? ` (contrast with ${this.labels[q.foil]})` : ''}.`;
     const tests = this.chosenTests();
-    const needsBox = tests.includes('truth') && !this.boxValue();
-    this.runButton.disabled = this.runningId !== undefined || tests.length === 0 || needsBox;
-    this.runButton.title = needsBox ? 'Mark the object with a box first' : tests.length === 0 ? 'Choose at least one check' : '';
+    // Without a box the host looks for the image's mask file and says so when there is none.
+    this.runButton.disabled = this.runningId !== undefined || tests.length === 0;
+    this.runButton.title = tests.length === 0 ? 'Choose at least one check' : '';
   }
 
   private chosenTests(): TrustTest[] {

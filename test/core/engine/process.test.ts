@@ -168,6 +168,20 @@ describe('engine process (forked, demo model)', function () {
     await assert.rejects(p.result, (e: unknown) => e instanceof EngineRequestError && e.kind === 'cancelled');
   });
 
+  it('without a box, the truth check finds the image\'s own mask by convention, or says how to give one', async () => {
+    const eval_ = path.join(dir, 'eval', 'washer'), masks = path.join(dir, 'eval-masks', 'washer');
+    execFileSync('mkdir', ['-p', eval_, masks]);
+    copyFileSync(path.join(FIXTURES, 'parts', 'eval', 'washer', 'washer-0001.png'), path.join(eval_, 'washer-0001.png'));
+    copyFileSync(path.join(FIXTURES, 'parts', 'eval-masks', 'washer', 'washer-0001.png'), path.join(masks, 'washer-0001.png'));
+    const view = await client.request({ op: 'openView', model: MODEL, image: path.join(eval_, 'washer-0001.png') }).result;
+    const ask = { op: 'trust' as const, viewId: view.viewId, layer: 'stage4', fact: view.prediction[0].index, tests: ['truth' as const], kinds: ['evidence' as const] };
+    const report = await client.request(ask).result;
+    assert.equal(report.truth?.source, 'mask');
+    rmSync(masks, { recursive: true });
+    await assert.rejects(client.request(ask).result,
+      (e: unknown) => e instanceof EngineRequestError && e.kind === 'user' && /no object mask found for washer-0001\.png/.test(e.message));
+  });
+
   it('writes panel settings to the sidecar atomically and reopens the view; a malformed sidecar is reported, not replaced', async () => {
     // A private copy of the model and its settings, so the fixture's sidecar is never touched.
     const mdir = path.join(dir, 'model');
