@@ -90,6 +90,8 @@ export class PanelRelay {
   private readonly running = new Map<number, number>();
   /** Files this panel saved: the only paths `reveal` may show. */
   private readonly savedFiles = new Set<string>();
+  /** Labels files the user chose in this host's dialog: the only new paths a settings change may name. */
+  private readonly pickedLabels = new Set<string>();
   private disposed = false;
 
   constructor(private readonly d: RelayDeps) {}
@@ -163,6 +165,7 @@ export class PanelRelay {
       case 'updateSettings': return this.onSettings(m);
       case 'pickLabelsFile': {
         const file = await this.d.ui.pickLabelsFile(path.dirname(this.d.target.model));
+        if (file) this.pickedLabels.add(file);
         this.post({ type: 'labelsFileResult', id: m.id, ...(file ? { path: file } : {}) });
         return;
       }
@@ -278,6 +281,12 @@ export class PanelRelay {
   private async onSettings(m: Extract<FromWebview, { type: 'updateSettings' }>): Promise<void> {
     try {
       const view = await this.ensureView();
+      const asked = m.settings.labelsFile;
+      if (asked !== undefined && asked !== view.summary.settings.labelsFile && !this.pickedLabels.has(asked)) {
+        this.d.log.warn(`the panel named a labels file it was not given (${asked}); ignored`);
+        this.post({ type: 'failed', id: m.id, message: 'that labels file was not chosen in the file dialog', hint: 'choose it with the labels file button' });
+        return;
+      }
       const req = this.d.engine.request({ op: 'updateSettings', viewId: view.viewId, settings: m.settings });
       this.running.set(m.id, req.id);
       const v = await req.result.finally(() => this.running.delete(m.id));

@@ -22,7 +22,7 @@ function view(id: string): ViewInfo {
       path: '/w/parts-sorter.onnx', name: 'parts-sorter.onnx', sha256: 'ab'.repeat(32),
       input: { name: 'image', dims: [1, 3, 4, 4], declared: [1, 3, 4, 4] },
       scores: { tensor: 'logits', source: 'output', numClasses: 8 }, classes: LABELS, gray: false,
-      settings: { preprocessing: { width: 4, height: 4, resize: 'stretch', channels: 'RGB', layout: 'NCHW', scale: 1 / 255, mean: [0, 0, 0], std: [1, 1, 1] } },
+      settings: { preprocessing: { width: 4, height: 4, resize: 'stretch', channels: 'RGB', layout: 'NCHW', scale: 1 / 255, mean: [0, 0, 0], std: [1, 1, 1] }, labelsFile: 'labels.txt' },
       layers: [
         { index: 0, id: 'a', short: 'a', shape: [2, 2, 2], kind: 'spatial', grid: [2, 2], stage: false, explainable: false, blockedBy: { opType: 'TopK', node: 'n1' } },
         { index: 1, id: 'stage1', short: 'stage1', shape: [2, 2, 3], kind: 'spatial', grid: [2, 3], stage: true, explainable: true },
@@ -234,6 +234,22 @@ describe('panel relay (extension host side of the panel)', () => {
     relay.receive({ type: 'pickLabelsFile', id: 12 });
     await tick();
     assert.deepEqual(ofType('labelsFileResult'), [{ type: 'labelsFileResult', id: 11 }, { type: 'labelsFileResult', id: 12, path: '/w/labels.txt' }]);
+  });
+
+  it('a settings change may name only the current labels file or one chosen in the dialog', async () => {
+    const { relay, engine, ui, ofType, logs } = setup();
+    const preprocessing = { width: 4, height: 4, resize: 'crop' as const, channels: 'RGB' as const, layout: 'NCHW' as const, scale: 1, mean: [0, 0, 0] as [number, number, number], std: [1, 1, 1] as [number, number, number] };
+    relay.receive({ type: 'updateSettings', id: 30, settings: { preprocessing, labelsFile: '/etc/passwd' } });
+    await tick();
+    assert.equal(engine.calls.filter((c) => c.req.op === 'updateSettings').length, 0, 'never reaches the engine');
+    assert.match(ofType('failed')[0].message, /not chosen in the file dialog/);
+    assert.ok(logs.some((l) => /\/etc\/passwd/.test(l)));
+    ui.labelsPick = '/w/other-labels.txt';
+    relay.receive({ type: 'pickLabelsFile', id: 31 });
+    await tick();
+    relay.receive({ type: 'updateSettings', id: 32, settings: { preprocessing, labelsFile: '/w/other-labels.txt' } });
+    await tick();
+    assert.equal(engine.calls.filter((c) => c.req.op === 'updateSettings').length, 1);
   });
 
   it('does not post a message the panel would reject (a label longer than the protocol allows)', async () => {
