@@ -72,14 +72,16 @@ export async function frameWith(page: Page, selector: string, timeout: number): 
  * first try (the extension host registers it a little after the workbench shows): retry.
  */
 export async function runFromPalette(page: Page, title: string, tries = 5): Promise<void> {
+  const input = page.locator('.quick-input-widget input');
   for (let attempt = 1; ; attempt++) {
-    await page.locator('.part.editor .tabs-container .tab.active').first().click();
-    await page.keyboard.press('F1');
-    const input = page.locator('.quick-input-widget input');
-    await input.waitFor({ state: 'visible', timeout: 10_000 });
-    await input.fill(`>${title}`);
-    const row = quickPickRow(page, title, true).first();
     try {
+      // Focus can sit inside a webview or a notification, where F1 never reaches the workbench:
+      // click the active tab first, and fall back to the other palette key.
+      await page.locator('.part.editor .tabs-container .tab.active').first().click();
+      await page.keyboard.press(attempt % 2 === 1 ? 'F1' : 'Control+Shift+P');
+      await input.waitFor({ state: 'visible', timeout: 5_000 });
+      await input.fill(`>${title}`);
+      const row = quickPickRow(page, title, true).first();
       await row.waitFor({ state: 'visible', timeout: 3_000 });
       await row.click();
       return;
