@@ -74,10 +74,9 @@ if (!existsSync('node_modules/onnxruntime-node/bin/napi-v6/linux/x64/onnxruntime
 }
 
 mkdirSync('dist-vsix', { recursive: true });
-// --skip-license: the project has no LICENSE file yet (package.json says MIT);
 // --allow-missing-repository: there is no public repository to link to.
 const vsce = join('node_modules', '@vscode', 'vsce', 'vsce');
-run([vsce, 'package', '--target', target, '--out', out, '--skip-license', '--allow-missing-repository']);
+run([vsce, 'package', '--target', target, '--out', out, '--allow-missing-repository']);
 
 const names = zipEntryNames(out);
 const missing = required.filter((n) => !names.includes(n));

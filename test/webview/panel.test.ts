@@ -143,6 +143,12 @@ describe('panel in headless Chromium', function () {
     const cx = Math.floor(mx / (MODEL / 6)), cy = Math.floor(my / (MODEL / 6));
     const want = `block2 cell (${cx}, ${cy}) of 6×6: ${formatValue(rawCellValue(q, 6, cx, cy))}`;
     assert.equal(await text(page, '.ff-readout'), want);
+    // Stepping with the keyboard under a still pointer reads the new layer's map there.
+    await page.keyboard.press('ArrowUp');
+    await page.waitForFunction((w) => document.querySelector('.ff-readout')?.textContent !== w, want);
+    assert.match(await text(page, '.ff-readout'), /^block1 cell \(\d+, \d+\) of \d+×\d+: /);
+    await page.keyboard.press('ArrowDown');
+    await page.waitForFunction((w) => document.querySelector('.ff-readout')?.textContent === w, want);
 
     // Colour check against the published viridis ends (#fde725 top, #440154 bottom, from memory):
     // the blob peak is above the display range's hi (0.98·peak), so it takes the top entry;

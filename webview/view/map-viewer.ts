@@ -17,6 +17,8 @@ export class MapViewer {
   private image?: PanelImage;
   private map?: DecodedMap;
   private painted = '';
+  /** The pointer in image pixels while it is over the image, so a new map re-reads the value there. */
+  private pointer?: { ix: number; iy: number };
 
   constructor() {
     this.img = h('img', { class: 'ff-image', attrs: { alt: '', draggable: 'false' } });
@@ -24,7 +26,7 @@ export class MapViewer {
     this.placeholder = h('div', { class: 'ff-overlay-placeholder', text: 'Computing the map…' });
     const frame: HTMLElement = h('div', { class: 'ff-frame', on: {
       pointermove: (e) => this.onHover(e),
-      pointerleave: () => this.showReadout(undefined),
+      pointerleave: () => { this.pointer = undefined; this.showReadout(undefined); },
     } }, [this.img, this.canvas, this.placeholder]);
     this.readout = h('div', { class: 'ff-readout', attrs: { 'aria-live': 'off' } });
     this.root = h('div', { class: 'ff-viewer' }, [frame, this.readout]);
@@ -44,7 +46,10 @@ export class MapViewer {
 
   /** Shows a map (or none). Repaints only when what is drawn changes; opacity is a CSS property. */
   show(map: DecodedMap | undefined, range: DisplayRange, colormap: ColormapName, opacity: number, visible: boolean, waiting: boolean): void {
+    const changed = map !== this.map;
     this.map = map;
+    // Stepping with the keyboard changes the map under a still pointer: read the new map there.
+    if (changed) this.readAtPointer();
     this.canvas.style.opacity = String(visible ? opacity : 0);
     this.placeholder.hidden = !(waiting && !map);
     this.canvas.hidden = !map;
@@ -57,12 +62,16 @@ export class MapViewer {
   }
 
   private onHover(e: PointerEvent): void {
-    if (!this.map || !this.image) return;
+    if (!this.image) return;
     const box = this.img.getBoundingClientRect();
-    const ix = ((e.clientX - box.left) / box.width) * this.image.width;
-    const iy = ((e.clientY - box.top) / box.height) * this.image.height;
+    this.pointer = { ix: ((e.clientX - box.left) / box.width) * this.image.width, iy: ((e.clientY - box.top) / box.height) * this.image.height };
+    this.readAtPointer();
+  }
+
+  private readAtPointer(): void {
+    if (!this.map || !this.image || !this.pointer) { this.showReadout(undefined); return; }
     const d = this.map.data;
-    this.showReadout(rawValueAt({ data: this.map.raw, width: d.rawWidth, height: d.rawHeight }, d.width, d.height, this.image.geometry, ix, iy));
+    this.showReadout(rawValueAt({ data: this.map.raw, width: d.rawWidth, height: d.rawHeight }, d.width, d.height, this.image.geometry, this.pointer.ix, this.pointer.iy));
   }
 
   private showReadout(r: ReturnType<typeof rawValueAt>): void {
