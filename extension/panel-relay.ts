@@ -193,6 +193,7 @@ export class PanelRelay {
     try {
       const view = await this.ensureView();
       this.post(initMessage(view, this.d.ui.imageUri(view), this.d.settings()));
+      if (view.image.note) this.post({ type: 'notice', level: 'info', message: view.image.note.slice(0, 2000) });
     } catch (e) {
       const err = e as EngineRequestError;
       this.post({ type: 'notice', level: 'error', message: `Cannot open ${path.basename(this.d.target.image)} with ${path.basename(this.d.target.model)}: ${err?.message ?? e}`.slice(0, 2000), ...(err?.hint ? { hint: err.hint } : {}) });

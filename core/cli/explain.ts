@@ -61,7 +61,7 @@ export async function explainCommand(engine: Engine, args: CliArgs): Promise<num
   const onInt = () => abort.abort();
   process.once('SIGINT', onInt);
   const outputs: unknown[] = [];
-  const images: { image: string; expected: string | null; prediction: unknown }[] = [];
+  const images: { image: string; expected: string | null; prediction: unknown; note?: string }[] = [];
   // Over several images (a CI folder run) an unreadable image is reported and skipped, so one
   // bad file does not hide the maps of the rest; the run still exits 2 at the end.
   const skipped: { image: string; error: string }[] = [];
@@ -77,6 +77,7 @@ export async function explainCommand(engine: Engine, args: CliArgs): Promise<num
         process.stderr.write(`${e.oneLine()} (skipped)\n`);
         continue;
       }
+      if (input.image?.note) process.stderr.write(`note: ${input.image.note}\n`);
       const p = softmax(await engine.scores(ctx.pm, input.data));
       const top = ranked(p, ctx.labels, Math.min(5, p.length));
       prediction = top;
@@ -96,7 +97,7 @@ export async function explainCommand(engine: Engine, args: CliArgs): Promise<num
         } : undefined,
       });
       for (const m of maps) outputs.push({ image: input.path, ...(await saveMap(ctx, input, m, top, v.out, v.raw ?? false)) });
-      images.push({ image: input.path, expected: expected !== undefined ? ctx.labels[expected] : null, prediction: top });
+      images.push({ image: input.path, expected: expected !== undefined ? ctx.labels[expected] : null, prediction: top, ...(input.image?.note ? { note: input.image.note } : {}) });
       process.stderr.write(`${file}: ${ctx.labels[fact]} (${(100 * p[fact]).toFixed(1)}%), ${maps.length} maps\n`);
     }
   } catch (e) {

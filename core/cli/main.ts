@@ -89,7 +89,9 @@ async function predictCommand(engine: Engine, args: CliArgs): Promise<number> {
   const input = args.values.input ? await tensorInput(ctx, args.values.input) : await imageInput(ctx, file);
   const p = softmax(await engine.scores(ctx.pm, input.data));
   const top = ranked(p, ctx.labels, Number(args.values.top ?? 5));
-  if (args.values.json) process.stdout.write(JSON.stringify({ image: input.path, prediction: top }) + '\n');
+  const note = input.image?.note;
+  if (note) process.stderr.write(`note: ${note}\n`);
+  if (args.values.json) process.stdout.write(JSON.stringify({ image: input.path, prediction: top, ...(note ? { note } : {}) }) + '\n');
   else for (const t of top) process.stdout.write(`${(100 * t.p).toFixed(1).padStart(5)}%  ${t.label}\n`);
   return 0;
 }

@@ -174,6 +174,7 @@ export class EngineService {
         path: input.path, name: path.basename(input.path), width: img.width, height: img.height, format: img.format,
         geometry: geometrySummary(input.geometry!),
         ...(BROWSER_FORMATS.has(img.format) ? {} : { previewPng: (await encodePng(img.rgb, img.width, img.height)).toString('base64') }),
+        ...(img.note ? { note: img.note } : {}),
       },
       prediction,
       ...(expected !== undefined ? { expected } : {}),

@@ -86,6 +86,8 @@ export interface ViewInfo {
     geometry: ImageGeometrySummary;
     /** base64 PNG, only for formats a browser cannot show (TIFF). */
     previewPng?: string;
+    /** A choice the decoder made for the user (e.g. the first of several frames is used). */
+    note?: string;
   };
   /** All classes, highest p first. */
   prediction: ClassScore[];

@@ -116,6 +116,19 @@ describe('panel relay (extension host side of the panel)', () => {
     assert.match(init.image.uri, /^https:\/\/file\+\.vscode-resource/);
   });
 
+  it('passes the decoder\'s note on an image (first frame of an animation) to the panel as a notice', async () => {
+    const { relay, posted, engine } = setup();
+    engine.autoOpen = false;
+    relay.receive({ type: 'ready', version: PROTOCOL_VERSION });
+    await tick();
+    const v = view('v1');
+    v.image.note = '/w/anim.gif holds 3 frames; the first is used';
+    engine.last('openView').resolve(v);
+    await tick();
+    assert.deepEqual(posted.map((m) => m.type), ['init', 'notice']);
+    assert.deepEqual(posted[1], { type: 'notice', level: 'info', message: v.image.note });
+  });
+
   it('drops malformed or unknown messages and logs why, without asking the engine anything', async () => {
     const { relay, engine, logs, posted } = setup();
     relay.receive({ type: 'requestMaps', id: 1, kind: 'contrast', fact: 0, layers: ['stage1'] }); // contrast without a foil

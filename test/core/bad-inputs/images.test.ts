@@ -100,6 +100,11 @@ describe('bad and unusual images', () => {
     }
     const still = await decodeImage(DEMO_IMAGE);
     assert.equal(still.note, undefined);
+    // The CLI passes the note on: a line on stderr and a field in --json.
+    const r = spawnSync(process.execPath, [path.join(ROOT, 'dist/cli.js'), 'predict', file('anim.gif'), '--model', DEMO_MODEL, '--json'], { encoding: 'utf8' });
+    assert.equal(r.status, 0, r.stderr);
+    assert.match(r.stderr, /^note: .*anim\.gif holds 3 frames; the first is used/m);
+    assert.match(JSON.parse(r.stdout).note, /first is used/);
   });
 
   it('16-bit, CMYK, palette, grey+alpha and RGBA images decode to 8-bit RGB', async () => {
