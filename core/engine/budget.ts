@@ -55,3 +55,16 @@ export function seedChunkSize(pm: PreparedModel, layers: string[], budgetBytes =
   }
   return Math.floor(budgetBytes / perSeed);
 }
+
+/**
+ * Refuses a run of `rows` seeds per pass that would not fit the budget (gradient questions run all
+ * their seeds in one run, unlike mismatch sweeps, which are chunked by seedChunkSize).
+ */
+export function requireSeedsFit(pm: PreparedModel, layers: string[], rows: number, passes: number, budgetBytes = DEFAULT_BUDGET_BYTES): void {
+  const need = bytesPerSeed(pm, layers) * rows * Math.max(1, passes);
+  if (need <= budgetBytes) return;
+  const mb = (b: number) => `${(b / 2 ** 20).toFixed(1)} MB`;
+  const names = layers.slice(0, 3).map((l) => `'${l}'`).join(', ') + (layers.length > 3 ? ', …' : '');
+  throw new UserError(`explaining ${names} of ${pm.model.path} with ${rows} questions needs about ${mb(need)}, over the memory budget of ${mb(budgetBytes)}`,
+    'ask fewer questions or layers at once, pick deeper layers, or raise the memory budget');
+}

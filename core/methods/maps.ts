@@ -8,7 +8,7 @@ import { PreparedModel } from '../plan/prepared';
 import { headKey, HeadKind, PlanPass } from '../plan/compose';
 import { UserError } from '../errors';
 import { floatTensor, ort } from '../engine/runtime';
-import { seedChunkSize } from '../engine/budget';
+import { requireSeedsFit, seedChunkSize } from '../engine/budget';
 import { ProbeDesign, sweepSeeds } from './mismatch-seeds';
 
 export type MapKind = 'evidence' | 'contrast' | 'mismatch' | 'expectancy' | 'detail' | 'guided-evidence';
@@ -105,6 +105,7 @@ export async function explainMaps(engine: Engine, pm: PreparedModel, input: Floa
     // One seed row per gradient question, then one per detail fact (the guided pass reads those rows).
     const rows = [...gradQs.map((q) => questionSeed(q, R)), ...detailFacts.map((f) => questionSeed({ kind: 'evidence', fact: f }, R))];
     if (!rows.length) rows.push({ base: new Float32Array(R), coef: 0 });
+    requireSeedsFit(pm, needDetail ? [...layers, pm.model.input.name] : layers, rows.length, passes.length, opts.budgetBytes);
     const fetch = [...cp.plan.outputs.values()].flatMap((o) => [o.raw, o.up]).filter((x): x is string => !!x);
     const out = await engine.run(pm, cp, input, stack(rows, R), fetch, {}, opts.signal);
     const guidedPass = passes.findIndex((p) => p.relu === 'guided');

@@ -31,6 +31,17 @@ describe('resource limits', () => {
     );
   });
 
+  it('gradient questions are held to the budget too: refused when they cannot fit, answered when they can', async () => {
+    const qs = [{ kind: 'evidence' as const, fact: 0 }, { kind: 'contrast' as const, fact: 0, foil: 1 }, { kind: 'detail' as const, fact: 0 }];
+    await rejectsUserError(
+      () => explainMaps(engine, pm, x, qs, ['stem'], { budgetBytes: 2 ** 20 }),
+      /explaining 'stem', 'image' of .*parts-sorter\.onnx with 3 questions needs about [\d.]+ MB, over the memory budget of 1\.0 MB/,
+      /ask fewer questions/,
+    );
+    const maps = await explainMaps(engine, pm, x, qs, ['stem']);
+    assert.equal(maps.length, 3);
+  });
+
   it('a budget that fits one seed per chunk still gives the same map as one big chunk', async () => {
     // Smallest budget that passes: three seed rows per run (sizes from seedChunkSize itself).
     let budget = 2 ** 20;
