@@ -48,9 +48,7 @@ export function bytesPerSeed(pm: PreparedModel, layers: string[]): number {
 export function seedChunkSize(pm: PreparedModel, layers: string[], budgetBytes = DEFAULT_BUDGET_BYTES): number {
   const perSeed = bytesPerSeed(pm, layers);
   if (3 * perSeed > budgetBytes) {
-    const mb = (b: number) => `${(b / 2 ** 20).toFixed(1)} MB`;
-    const names = layers.slice(0, 3).map((l) => `'${l}'`).join(', ') + (layers.length > 3 ? ', …' : '');
-    throw new UserError(`explaining ${names} of ${pm.model.path} needs about ${mb(3 * perSeed)} for its smallest batch of seeds, over the memory budget of ${mb(budgetBytes)}`,
+    throw new UserError(`explaining ${layerNames(layers)} of ${pm.model.path} needs about ${mb(3 * perSeed)} for its smallest batch of seeds, over the memory budget of ${mb(budgetBytes)}`,
       'pick a deeper layer, a smaller input size, or raise the memory budget');
   }
   return Math.floor(budgetBytes / perSeed);
@@ -63,8 +61,9 @@ export function seedChunkSize(pm: PreparedModel, layers: string[], budgetBytes =
 export function requireSeedsFit(pm: PreparedModel, layers: string[], rows: number, passes: number, budgetBytes = DEFAULT_BUDGET_BYTES): void {
   const need = bytesPerSeed(pm, layers) * rows * Math.max(1, passes);
   if (need <= budgetBytes) return;
-  const mb = (b: number) => `${(b / 2 ** 20).toFixed(1)} MB`;
-  const names = layers.slice(0, 3).map((l) => `'${l}'`).join(', ') + (layers.length > 3 ? ', …' : '');
-  throw new UserError(`explaining ${names} of ${pm.model.path} with ${rows} questions needs about ${mb(need)}, over the memory budget of ${mb(budgetBytes)}`,
+  throw new UserError(`explaining ${layerNames(layers)} of ${pm.model.path} with ${rows} questions needs about ${mb(need)}, over the memory budget of ${mb(budgetBytes)}`,
     'ask fewer questions or layers at once, pick deeper layers, or raise the memory budget');
 }
+
+const mb = (b: number) => `${(b / 2 ** 20).toFixed(1)} MB`;
+const layerNames = (layers: string[]) => layers.slice(0, 3).map((l) => `'${l}'`).join(', ') + (layers.length > 3 ? ', …' : '');

@@ -76,8 +76,10 @@ export async function runFromPalette(page: Page, title: string, tries = 5): Prom
   for (let attempt = 1; ; attempt++) {
     try {
       // Focus can sit inside a webview or a notification, where F1 never reaches the workbench:
-      // click the active tab first, and fall back to the other palette key.
-      await page.locator('.part.editor .tabs-container .tab.active').first().click();
+      // give it to the side bar's title (plain workbench DOM), or the active tab, and fall back
+      // to the other palette key.
+      const focusTarget = attempt % 2 === 1 ? '.part.sidebar .composite.title' : '.part.editor .tabs-container .tab.active';
+      await page.locator(focusTarget).first().click();
       await page.keyboard.press(attempt % 2 === 1 ? 'F1' : 'Control+Shift+P');
       await input.waitFor({ state: 'visible', timeout: 5_000 });
       await input.fill(`>${title}`);
