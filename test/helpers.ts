@@ -1,5 +1,6 @@
 /** Small shared test utilities. */
 import * as path from 'node:path';
+import * as zlib from 'node:zlib';
 
 export const FIXTURES = path.resolve(__dirname, '..', 'test-fixtures');
 
@@ -13,4 +14,14 @@ export function relL2(a: ArrayLike<number>, b: ArrayLike<number>): number {
 
 export function toNumbers(a: ArrayLike<number | bigint>): number[] {
   return Array.from(a as ArrayLike<number>, Number);
+}
+
+/** One PNG chunk (PNG spec: length, type, data, CRC-32 over type+data), for hand-made test PNGs. */
+export function pngChunk(type: string, data: Buffer): Buffer {
+  const len = Buffer.alloc(4);
+  len.writeUInt32BE(data.length);
+  const td = Buffer.concat([Buffer.from(type, 'latin1'), data]);
+  const crc = Buffer.alloc(4);
+  crc.writeUInt32BE(zlib.crc32(td) >>> 0);
+  return Buffer.concat([len, td, crc]);
 }

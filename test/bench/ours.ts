@@ -21,6 +21,7 @@ import { computeGeometry } from '../../core/image/preprocess';
 import { displayRange } from '../../core/image/normalize';
 import { renderOverlayPng } from '../../core/image/overlay';
 import { colorizeOntoImage } from '../../webview/map-render';
+import { geometrySummary } from '../../core/engine/process-main';
 import { colorIndexFor, colormapTable } from '../../webview/colormap';
 import type { DecodedImage } from '../../core/image/decode';
 import { mulberry32 } from '../../core/metrics/random';
@@ -142,8 +143,7 @@ async function main(): Promise<void> {
   // top (the same overlay blended onto the photo and PNG-encoded by sharp).
   const img = syntheticPhoto();
   const geom = computeGeometry(img.width, img.height, [224, 224], 'crop');
-  const panelGeom = { kind: 'crop' as const, scaleX: geom.source.width / geom.target.width, scaleY: geom.source.height / geom.target.height,
-    offsetX: geom.source.x - geom.target.x * (geom.source.width / geom.target.width), offsetY: geom.source.y - geom.target.y * (geom.source.height / geom.target.height) };
+  const panelGeom = geometrySummary(geom); // the geometry the panel is sent
   const steps: number[] = [];
   const stepsPng: number[] = [];
   let pngBytes = 0;

@@ -13,19 +13,10 @@ import { decodeImage } from '../../../core/image/decode';
 import { exerciseImage } from '../../fuzz/pipeline';
 import { rejectsUserError, useTempDir } from '../io/support';
 import { DEMO_MODEL } from './model-cases';
+import { pngChunk } from '../../helpers';
 
 const ROOT = path.resolve(__dirname, '../../..');
 const DEMO_IMAGE = path.join(ROOT, 'test-fixtures/parts/demo/bearing/bearing-0002.png');
-
-/** PNG chunk (PNG spec: length, type, data, CRC-32 over type+data). */
-function chunk(type: string, data: Buffer): Buffer {
-  const len = Buffer.alloc(4);
-  len.writeUInt32BE(data.length);
-  const td = Buffer.concat([Buffer.from(type, 'latin1'), data]);
-  const crc = Buffer.alloc(4);
-  crc.writeUInt32BE(zlib.crc32(td) >>> 0);
-  return Buffer.concat([len, td, crc]);
-}
 
 /** A PNG whose IHDR claims w×h RGB but whose data is a few bytes: cheap to make, costly to decode if the limit came late. */
 function hugePngHeader(w: number, h: number): Buffer {
@@ -34,7 +25,7 @@ function hugePngHeader(w: number, h: number): Buffer {
   ihdr.writeUInt32BE(h, 4);
   ihdr[8] = 8;
   ihdr[9] = 2;
-  return Buffer.concat([Buffer.from([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a]), chunk('IHDR', ihdr), chunk('IDAT', zlib.deflateSync(Buffer.alloc(256))), chunk('IEND', Buffer.alloc(0))]);
+  return Buffer.concat([Buffer.from([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a]), pngChunk('IHDR', ihdr), pngChunk('IDAT', zlib.deflateSync(Buffer.alloc(256))), pngChunk('IEND', Buffer.alloc(0))]);
 }
 
 /** A GIF header (GIF89a: logical screen width/height, u16 little-endian) claiming w×h, with one tiny frame. */

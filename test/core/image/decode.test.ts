@@ -5,6 +5,7 @@ import * as zlib from 'node:zlib';
 import sharp from 'sharp';
 import { decodeImage, decodeMask, resizeMaskNearest } from '../../../core/image/decode';
 import { rejectsUserError, useTempDir } from '../io/support';
+import { pngChunk } from '../../helpers';
 
 /** 8×6 test pattern: four 4×3 quadrants of distinct colours, so lossy codecs keep them recognisable. */
 const W = 8, H = 6;
@@ -23,22 +24,14 @@ function maxAbsDiff(a: Uint8Array, b: Uint8Array): number {
   return m;
 }
 
-/** A PNG whose IHDR claims `w`×`h` but holds almost no data (PNG spec: signature, IHDR, IDAT chunks; CRC-32 over type+data). */
+/** A PNG whose IHDR claims `w`×`h` but holds almost no data (PNG spec: signature, IHDR, IDAT chunks). */
 function pngHeaderOnly(w: number, h: number): Buffer {
-  const chunk = (type: string, data: Buffer) => {
-    const len = Buffer.alloc(4);
-    len.writeUInt32BE(data.length);
-    const td = Buffer.concat([Buffer.from(type, 'latin1'), data]);
-    const crc = Buffer.alloc(4);
-    crc.writeUInt32BE(zlib.crc32(td) >>> 0);
-    return Buffer.concat([len, td, crc]);
-  };
   const ihdr = Buffer.alloc(13);
   ihdr.writeUInt32BE(w, 0);
   ihdr.writeUInt32BE(h, 4);
   ihdr[8] = 8; // bit depth
   ihdr[9] = 2; // colour type RGB
-  return Buffer.concat([Buffer.from([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a]), chunk('IHDR', ihdr), chunk('IDAT', zlib.deflateSync(Buffer.alloc(64)))]);
+  return Buffer.concat([Buffer.from([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a]), pngChunk('IHDR', ihdr), pngChunk('IDAT', zlib.deflateSync(Buffer.alloc(64)))]);
 }
 
 describe('core/image/decode', () => {
