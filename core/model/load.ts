@@ -8,9 +8,9 @@ import { GraphIndex, indexGraph } from './graph';
 import { checkTensorPayload } from './tensor';
 import { sniffFileType } from './sniff';
 
-/** IR and opset range this build understands (ORT 1.30 runs more; older opsets are upgraded to 18 for differentiation). */
+/** IR and opset range this build understands (ORT 1.30 runs more; models are upgraded to opset 18 for differentiation). */
 export const IR_RANGE = [3, 10] as const;
-export const OPSET_RANGE = [11, 21] as const;
+export const OPSET_RANGE = [7, 21] as const;
 
 /**
  * Most values a model input may hold: 2^26 float32 values (256 MB), e.g. 3×4096×4096. Classifier

@@ -1,0 +1,164 @@
+"""Export-variant fixtures -> test-fixtures/variants/<variant>/.
+
+One small seeded CNN (Conv, BatchNormalization, MaxPool, explicit Pad, nearest Upsample,
+AveragePool, Slice, ReduceMean, Reshape, Gemm), exported the ways users' models arrive: several
+opsets, initializers listed as graph inputs, dynamic batch/H/W, external data. Every variant
+is the same function of the same weights, so one set of float64 PyTorch autograd reference
+gradients (two layers, logit and cross-entropy seeds) checks them all.
+
+    /usr/bin/python3 test-fixtures/gen/make_variants.py
+"""
+import copy
+import os
+import shutil
+import sys
+
+import numpy as np
+import onnx
+import onnx.version_converter
+import torch
+import torch.nn as nn
+import torch.nn.functional as F
+
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from common import FIXTURES_ROOT, rel_l2, rng_for, save_json, save_npy, torch_seed_for  # noqa: E402
+from make_arch import NUM_CLASSES, Capture, randomise  # noqa: E402
+
+OUT = os.path.join(FIXTURES_ROOT, "variants")
+S = 16
+
+
+class VariantNet(nn.Module):
+    """Ops whose ONNX interface changed across opsets 7-17 (ONNX Changelog.md): BatchNormalization
+    (7, 9, 14, 15), Pad (pads attribute -> input at 11), Upsample -> Resize (10), Slice (starts/ends
+    attributes -> inputs at 10), ReduceMean, Unsqueeze/Squeeze (axes -> input at 13)."""
+
+    def __init__(self):
+        super().__init__()
+        self.conv1 = nn.Conv2d(3, 8, 3, padding=1, bias=False)
+        self.bn1 = nn.BatchNorm2d(8)
+        self.pool = nn.MaxPool2d(2)
+        self.block1 = nn.Identity()
+        self.conv2 = nn.Conv2d(8, 8, 3)
+        self.bn2 = nn.BatchNorm2d(8)
+        self.block2 = nn.Identity()
+        self.fc = nn.Linear(8, NUM_CLASSES)
+
+    def forward(self, x):
+        a = self.block1(self.pool(F.relu(self.bn1(self.conv1(x)))))          # [1,8,8,8]
+        h = F.relu(self.bn2(self.conv2(F.pad(a, (1, 1, 1, 1)))))              # [1,8,8,8]
+        h = F.avg_pool2d(F.interpolate(h, scale_factor=2.0, mode="nearest"), 2)
+        b = self.block2(h[:, :, 1:, 1:])                                        # [1,8,7,7]
+        f = b.mean(dim=(2, 3), keepdim=True)
+        return self.fc(f.reshape(f.shape[0], -1))
+
+
+TAPS = [("block1", "block1", "out"), ("block2", "block2", "out")]
+
+
+class Tapped(nn.Module):
+    """Exports the taps as extra outputs so they get our names; they are removed afterwards."""
+
+    def __init__(self, model, taps):
+        super().__init__()
+        self.model, self.names = model, [t[0] for t in taps]
+        self.capture = Capture(model, taps)
+
+    def forward(self, x):
+        self.capture.reset()
+        z = self.model(x)
+        return (z, *[self.capture.values[n] for n in self.names])
+
+
+def export(model, x, path, opset, keep_inputs=False, dynamic=False, batch=1):
+    w = Tapped(model, TAPS).eval()
+    names = ["logits"] + [t[0] for t in TAPS]
+    axes = {"input": {0: "batch", 2: "height", 3: "width"}, "logits": {0: "batch"}} if dynamic else None
+    xb = x.repeat(batch, 1, 1, 1)
+    with torch.no_grad():
+        torch.onnx.export(w, (xb,), path, input_names=["input"], output_names=names, opset_version=opset,
+                          do_constant_folding=True, keep_initializers_as_inputs=keep_inputs, dynamic_axes=axes)
+    w.capture.remove()
+    m = onnx.load(path)
+    for o in [o for o in m.graph.output if o.name != "logits"]:
+        m.graph.output.remove(o)
+    onnx.checker.check_model(m)
+    return m
+
+
+VARIANTS = {
+    # name: (opset, export options, note)
+    "opset7": (7, {"down_from": 9}, "opset 7 (PyTorch cannot export this Upsample at 7; the opset-9 export down-converted by onnx.version_converter): Upsample with scales attribute, Slice/Pad attributes"),
+    "opset8": (8, {"down_from": 9}, "opset 8 (down-converted from the opset-9 export)"),
+    "opset9": (9, {}, "opset 9: Upsample with scales input"),
+    "opset10": (10, {}, "opset 10: Resize (scales only), Slice inputs, Pad attribute"),
+    "opset11": (11, {}, "opset 11: Pad pads input, Resize with roi"),
+    "opset13": (13, {}, "opset 13: Squeeze/Unsqueeze axes inputs"),
+    "opset17": (17, {}, "opset 17"),
+    "initializers_as_inputs": (11, {"keep_inputs": True}, "every initializer also listed as a graph input (older exporters)"),
+    "dynamic_axes": (13, {"dynamic": True}, "batch, height and width named dynamic axes"),
+    "external_data": (13, {"external": True}, "weights in a separate file beside the model"),
+}
+
+
+def main():
+    torch.manual_seed(torch_seed_for("variants"))
+    net = VariantNet()
+    randomise(net, "variants")
+    net.eval()
+    x32 = torch.from_numpy(rng_for("variants/input").standard_normal((1, 3, S, S)).astype(np.float32))
+    if os.path.isdir(OUT):
+        shutil.rmtree(OUT)
+    os.makedirs(OUT)
+
+    # float64 references, shared by every variant (same weights, same input)
+    m64 = copy.deepcopy(net).double().eval()
+    cap = Capture(m64, TAPS)
+    x64 = x32.double().requires_grad_(True)
+    z64 = m64(x64)
+    acts = dict(cap.values)
+    cap.remove()
+    with torch.no_grad():
+        z32 = net(x32)
+    assert rel_l2(z32.numpy(), z64.detach().numpy()) < 1e-5
+    zs = z64.detach().numpy()[0]
+    order = np.argsort(-zs)
+    checks = []
+    for layer in [t[0] for t in TAPS]:
+        for loss, target in (("logit", int(order[0])), ("ce", int(order[1]))):
+            s = z64[0, target] if loss == "logit" else F.cross_entropy(z64, torch.tensor([target]))
+            (g,) = torch.autograd.grad(s, acts[layer], retain_graph=True)
+            fname = f"grad_{layer}_{loss}_{target}.npy"
+            save_npy(os.path.join(OUT, fname), g.detach().numpy()[0])
+            checks.append({"layer": layer, "loss": loss, "target": target, "grad": fname,
+                           "shape": list(g.shape[1:])})
+    save_npy(os.path.join(OUT, "input.npy"), x32.numpy())
+
+    variants = []
+    for name, (opset, opts, note) in VARIANTS.items():
+        d = os.path.join(OUT, name)
+        os.makedirs(d)
+        path = os.path.join(d, "model.onnx")
+        m = export(net, x32, path, opts.get("down_from", opset), keep_inputs=opts.get("keep_inputs", False),
+                   dynamic=opts.get("dynamic", False))
+        if "down_from" in opts:
+            m = onnx.version_converter.convert_version(m, opset)
+            onnx.checker.check_model(m)
+        if opts.get("external"):
+            onnx.save_model(m, path, save_as_external_data=True, all_tensors_to_one_file=True,
+                            location="model.weights", size_threshold=0)
+        else:
+            onnx.save(m, path)
+        ops = sorted({n.op_type for n in m.graph.node})
+        variants.append({"name": name, "model": f"{name}/model.onnx", "opset": opset, "note": note, "op_types": ops})
+        print(f"variants/{name}: opset {opset} ops {' '.join(ops)}")
+
+    save_json(os.path.join(OUT, "refs.json"), {
+        "input": "input.npy", "input_shape": [1, 3, S, S], "scores": "logits", "num_classes": NUM_CLASSES,
+        "logits": [float(v) for v in zs], "checks": checks, "variants": variants,
+        "torch_version": torch.__version__, "onnx_version": onnx.__version__,
+    })
+
+
+if __name__ == "__main__":
+    main()

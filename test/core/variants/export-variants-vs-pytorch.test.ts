@@ -1,0 +1,57 @@
+/**
+ * Every export variant of one small network (test-fixtures/variants, written by
+ * test-fixtures/gen/make_variants.py): opsets 7–17, initializers listed as graph inputs, dynamic
+ * axes, external data. All variants compute the same function, so each is checked against the
+ * same PyTorch float64 autograd gradients at two layers (logit and cross-entropy seeds).
+ */
+import { strict as assert } from 'node:assert';
+import { existsSync, readFileSync } from 'node:fs';
+import * as path from 'node:path';
+import { Engine } from '../../../core/engine/engine';
+import { gradientsAt, lossSeed } from '../../../core/methods/gradient';
+import { loadModel } from '../../../core/model/load';
+import { readNpy } from '../../../core/io/npy';
+import { FIXTURES, relL2, toNumbers } from '../../helpers';
+
+const DIR = path.join(FIXTURES, 'variants');
+const TOLERANCE = 1e-4; // the issue's bound: relative L2 ≤ 1e-4 against PyTorch float64
+
+interface Refs {
+  input: string; input_shape: number[]; scores: string; num_classes: number; logits: number[];
+  checks: { layer: string; loss: 'logit' | 'ce'; target: number; grad: string }[];
+  variants: { name: string; model: string; opset: number; note: string }[];
+}
+
+export const variantErrors: Record<string, number> = {};
+
+describe('export variants vs PyTorch float64 reference gradients (test-fixtures/variants)', function () {
+  this.timeout(60_000);
+  const engine = new Engine();
+  after(() => engine.dispose());
+  const refs: Refs | undefined = existsSync(path.join(DIR, 'refs.json')) ? JSON.parse(readFileSync(path.join(DIR, 'refs.json'), 'utf8')) : undefined;
+  it('has the variant fixtures', () => assert.ok(refs && refs.variants.length >= 8));
+  for (const v of refs?.variants ?? []) {
+    it(`${v.name}: logits and gradients at two layers match PyTorch float64 (rel L2 ≤ 1e-4)`, async () => {
+      const model = loadModel(path.join(DIR, v.model));
+      assert.equal(model.opset, v.opset);
+      const pm = await engine.prepare(model, refs!.input_shape);
+      assert.equal(pm.scores.tensor, refs!.scores);
+      const x = Float32Array.from(toNumbers((await readNpy(path.join(DIR, refs!.input))).data));
+      const z = await engine.scores(pm, x);
+      assert.ok(relL2(z, refs!.logits) < TOLERANCE, `logits rel L2 ${relL2(z, refs!.logits)}`);
+      const layers = [...new Set(refs!.checks.map((c) => c.layer))];
+      let worst = 0;
+      for (const c of refs!.checks) {
+        const grads = await gradientsAt(engine, pm, x, layers, lossSeed(pm.scores.numClasses, c.target, c.loss));
+        const ref = toNumbers((await readNpy(path.join(DIR, c.grad))).data);
+        const e = relL2(grads.get(c.layer)!.data, ref);
+        worst = Math.max(worst, e);
+        assert.ok(e < TOLERANCE, `${c.layer} ${c.loss} target ${c.target}: rel L2 ${e.toExponential(2)}`);
+      }
+      variantErrors[v.name] = worst;
+    });
+  }
+  after(() => {
+    if (Object.keys(variantErrors).length) console.log('\n  worst rel L2 per export variant:', Object.entries(variantErrors).map(([f, e]) => `${f} ${e.toExponential(1)}`).join(', '));
+  });
+});
