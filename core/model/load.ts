@@ -40,13 +40,19 @@ export interface LoadedModel {
   /** Version of the default ONNX domain. */
   opset: number;
   input: InputSpec;
-  /** The graph's first output (the classifier's output). */
+  /** The classifier's output: the one chosen by name (`scores` option), else the graph's first. */
   output: string;
   metadata: Record<string, string>;
 }
 
-/** `anyInput` accepts any single float input (single-op test graphs), not only images. */
-export function loadModel(modelPath: string, opts: { anyInput?: boolean } = {}): LoadedModel {
+export interface LoadOptions {
+  /** Accept any single float input (single-op test graphs), not only images. */
+  anyInput?: boolean;
+  /** Name of the graph output holding the class scores, for models with several outputs. */
+  scores?: string;
+}
+
+export function loadModel(modelPath: string, opts: LoadOptions = {}): LoadedModel {
   let bytes: Buffer;
   try {
     if (statSync(modelPath).isDirectory()) throw new UserError(`${modelPath} is a folder, not an ONNX file`, 'pass the path of a .onnx file');
@@ -60,7 +66,7 @@ export function loadModel(modelPath: string, opts: { anyInput?: boolean } = {}):
   return modelFromBytes(bytes, modelPath, opts);
 }
 
-export function modelFromBytes(bytes: Uint8Array, modelPath: string, opts: { anyInput?: boolean } = {}): LoadedModel {
+export function modelFromBytes(bytes: Uint8Array, modelPath: string, opts: LoadOptions = {}): LoadedModel {
   const sha256 = createHash('sha256').update(bytes).digest('hex');
   if (bytes.length === 0) throw new UserError(`${modelPath} is empty (0 bytes)`, 'the export or copy did not finish; export the model again');
   const other = sniffFileType(bytes);
@@ -94,8 +100,7 @@ export function modelFromBytes(bytes: Uint8Array, modelPath: string, opts: { any
     }
   }
   const input = pickImageInput(graph.inputs, modelPath, opts.anyInput ?? false);
-  const output = graph.outputs[0]?.name;
-  if (!output) throw new UserError(`${modelPath}: the graph declares no output`, 'the model is not valid ONNX; re-export it');
+  const output = pickOutput(graph.outputs, modelPath, opts.scores);
   const metadata: Record<string, string> = {};
   for (const p of proto.metadata_props ?? []) if (p.key) metadata[p.key] = p.value ?? '';
   return { path: modelPath, sha256, proto, graph, irVersion, opset, input, output, metadata };
@@ -120,6 +125,17 @@ function refuseCustomOps(proto: ModelProto, modelPath: string): void {
   if (n) {
     throw new UserError(`${modelPath}: ${n.op_type} node '${n.name || '(unnamed)'}' is a custom op of domain '${n.domain}', which needs its own runtime library`, 'export the model with standard ONNX ops only');
   }
+}
+
+/** The named output, or the first; a name that is not an output is refused with the ones there are. */
+function pickOutput(outputs: ValueInfoProto[], modelPath: string, wanted: string | undefined): string {
+  const names = outputs.map((o) => o.name ?? '');
+  if (!names.length || !names[0]) throw new UserError(`${modelPath}: the graph declares no output`, 'the model is not valid ONNX; re-export it');
+  if (wanted === undefined) return names[0];
+  if (!names.includes(wanted)) {
+    throw new UserError(`${modelPath}: the model has no output '${wanted}' (its outputs: ${names.join(', ')})`, 'pass one of those names as the scores output (--scores NAME)');
+  }
+  return wanted;
 }
 
 function valueDims(v: ValueInfoProto): (number | string)[] {

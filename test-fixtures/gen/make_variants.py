@@ -15,6 +15,7 @@ import sys
 
 import numpy as np
 import onnx
+import onnx.numpy_helper
 import onnx.version_converter
 import torch
 import torch.nn as nn
@@ -57,32 +58,62 @@ TAPS = [("block1", "block1", "out"), ("block2", "block2", "out")]
 
 
 class Tapped(nn.Module):
-    """Exports the taps as extra outputs so they get our names; they are removed afterwards."""
+    """Exports the taps as extra outputs so they get our names; they are removed afterwards.
+    head: None (logits out), 'softmax' (probabilities out, logits inside), 'nhwc' (an NHWC input
+    transposed inside the graph), 'two_outputs' (an embedding output first, then the logits)."""
 
-    def __init__(self, model, taps):
+    def __init__(self, model, taps, head=None):
         super().__init__()
-        self.model, self.names = model, [t[0] for t in taps]
+        self.model, self.names, self.head = model, [t[0] for t in taps], head
         self.capture = Capture(model, taps)
 
     def forward(self, x):
         self.capture.reset()
+        if self.head == "nhwc":
+            x = x.permute(0, 3, 1, 2)
         z = self.model(x)
-        return (z, *[self.capture.values[n] for n in self.names])
+        taps = [self.capture.values[n] for n in self.names]
+        if self.head == "softmax":
+            return (torch.softmax(z, dim=1), z, *taps)
+        if self.head == "two_outputs":
+            return (taps[-1].mean(dim=(2, 3)), z, *taps)
+        return (z, *taps)
 
 
-def export(model, x, path, opset, keep_inputs=False, dynamic=False, batch=1):
-    w = Tapped(model, TAPS).eval()
-    names = ["logits"] + [t[0] for t in TAPS]
+OUTPUTS = {None: ["logits"], "nhwc": ["logits"], "softmax": ["probs", "logits"], "two_outputs": ["embedding", "logits"]}
+KEEP = {None: ["logits"], "nhwc": ["logits"], "softmax": ["probs"], "two_outputs": ["embedding", "logits"]}
+
+
+def export(model, x, path, opset, keep_inputs=False, dynamic=False, head=None):
+    w = Tapped(model, TAPS, head).eval()
+    names = OUTPUTS[head] + [t[0] for t in TAPS]
     axes = {"input": {0: "batch", 2: "height", 3: "width"}, "logits": {0: "batch"}} if dynamic else None
-    xb = x.repeat(batch, 1, 1, 1)
+    if head == "nhwc":
+        x = x.permute(0, 2, 3, 1).contiguous()
     with torch.no_grad():
-        torch.onnx.export(w, (xb,), path, input_names=["input"], output_names=names, opset_version=opset,
+        torch.onnx.export(w, (x,), path, input_names=["input"], output_names=names, opset_version=opset,
                           do_constant_folding=True, keep_initializers_as_inputs=keep_inputs, dynamic_axes=axes)
     w.capture.remove()
     m = onnx.load(path)
-    for o in [o for o in m.graph.output if o.name != "logits"]:
+    for o in [o for o in m.graph.output if o.name not in KEEP[head]]:
         m.graph.output.remove(o)
     onnx.checker.check_model(m)
+    return m
+
+
+def raise_opset(m, opset):
+    """PyTorch 1.13 and onnx 1.12 stop at opset 17; later opsets are written by hand. Of this
+    net's ops only ReduceMean changed (18: axes attribute -> input; ONNX Changelog.md); 19-21 changed
+    none of them but type lists. Checked by running in onnxruntime (the test compares logits)."""
+    for n in m.graph.node:
+        if n.op_type == "ReduceMean":
+            a = next(a for a in n.attribute if a.name == "axes")
+            axes_name = n.name + "_axes"
+            m.graph.initializer.append(onnx.numpy_helper.from_array(np.array(list(a.ints), dtype=np.int64), axes_name))
+            n.input.append(axes_name)
+            n.attribute.remove(a)
+    m.opset_import[0].version = opset
+    m.ir_version = 10 if opset >= 21 else 9
     return m
 
 
@@ -95,6 +126,11 @@ VARIANTS = {
     "opset11": (11, {}, "opset 11: Pad pads input, Resize with roi"),
     "opset13": (13, {}, "opset 13: Squeeze/Unsqueeze axes inputs"),
     "opset17": (17, {}, "opset 17"),
+    "opset18": (18, {"up_from": 17}, "opset 18 (the opset-17 export with ReduceMean's axes moved to an input by hand)"),
+    "opset21": (21, {"up_from": 17}, "opset 21, IR 10 (as opset 18; no op of this net changed in 19-21)"),
+    "trailing_softmax": (13, {"head": "softmax"}, "ends in Softmax: the scores are its input"),
+    "nhwc_input": (13, {"head": "nhwc"}, "NHWC float input, Transpose to NCHW inside the graph"),
+    "two_outputs": (13, {"head": "two_outputs", "scores": "logits"}, "two outputs (an embedding first): the scores are chosen by name"),
     "initializers_as_inputs": (11, {"keep_inputs": True}, "every initializer also listed as a graph input (older exporters)"),
     "dynamic_axes": (13, {"dynamic": True}, "batch, height and width named dynamic axes"),
     "external_data": (13, {"external": True}, "weights in a separate file beside the model"),
@@ -133,14 +169,17 @@ def main():
             checks.append({"layer": layer, "loss": loss, "target": target, "grad": fname,
                            "shape": list(g.shape[1:])})
     save_npy(os.path.join(OUT, "input.npy"), x32.numpy())
+    save_npy(os.path.join(OUT, "input_nhwc.npy"), x32.permute(0, 2, 3, 1).contiguous().numpy())
 
     variants = []
     for name, (opset, opts, note) in VARIANTS.items():
         d = os.path.join(OUT, name)
         os.makedirs(d)
         path = os.path.join(d, "model.onnx")
-        m = export(net, x32, path, opts.get("down_from", opset), keep_inputs=opts.get("keep_inputs", False),
-                   dynamic=opts.get("dynamic", False))
+        m = export(net, x32, path, opts.get("down_from", opts.get("up_from", opset)), keep_inputs=opts.get("keep_inputs", False),
+                   dynamic=opts.get("dynamic", False), head=opts.get("head"))
+        if "up_from" in opts:
+            m = raise_opset(m, opset)
         if "down_from" in opts:
             m = onnx.version_converter.convert_version(m, opset)
             onnx.checker.check_model(m)
@@ -150,7 +189,12 @@ def main():
         else:
             onnx.save(m, path)
         ops = sorted({n.op_type for n in m.graph.node})
-        variants.append({"name": name, "model": f"{name}/model.onnx", "opset": opset, "note": note, "op_types": ops})
+        row = {"name": name, "model": f"{name}/model.onnx", "opset": opset, "note": note, "op_types": ops}
+        if opts.get("head") == "nhwc":
+            row["input"] = "input_nhwc.npy"
+        if "scores" in opts:
+            row["scores_option"] = opts["scores"]
+        variants.append(row)
         print(f"variants/{name}: opset {opset} ops {' '.join(ops)}")
 
     save_json(os.path.join(OUT, "refs.json"), {

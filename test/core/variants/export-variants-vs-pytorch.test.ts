@@ -19,7 +19,7 @@ const TOLERANCE = 1e-4; // the issue's bound: relative L2 ≤ 1e-4 against PyTor
 interface Refs {
   input: string; input_shape: number[]; scores: string; num_classes: number; logits: number[];
   checks: { layer: string; loss: 'logit' | 'ce'; target: number; grad: string }[];
-  variants: { name: string; model: string; opset: number; note: string }[];
+  variants: { name: string; model: string; opset: number; note: string; input?: string; scores_option?: string }[];
 }
 
 export const variantErrors: Record<string, number> = {};
@@ -32,11 +32,12 @@ describe('export variants vs PyTorch float64 reference gradients (test-fixtures/
   it('has the variant fixtures', () => assert.ok(refs && refs.variants.length >= 8));
   for (const v of refs?.variants ?? []) {
     it(`${v.name}: logits and gradients at two layers match PyTorch float64 (rel L2 ≤ 1e-4)`, async () => {
-      const model = loadModel(path.join(DIR, v.model));
+      const model = loadModel(path.join(DIR, v.model), { scores: v.scores_option });
       assert.equal(model.opset, v.opset);
-      const pm = await engine.prepare(model, refs!.input_shape);
+      const input = await readNpy(path.join(DIR, v.input ?? refs!.input));
+      const pm = await engine.prepare(model, input.shape);
       assert.equal(pm.scores.tensor, refs!.scores);
-      const x = Float32Array.from(toNumbers((await readNpy(path.join(DIR, refs!.input))).data));
+      const x = Float32Array.from(toNumbers(input.data));
       const z = await engine.scores(pm, x);
       assert.ok(relL2(z, refs!.logits) < TOLERANCE, `logits rel L2 ${relL2(z, refs!.logits)}`);
       const layers = [...new Set(refs!.checks.map((c) => c.layer))];
@@ -51,6 +52,10 @@ describe('export variants vs PyTorch float64 reference gradients (test-fixtures/
       variantErrors[v.name] = worst;
     });
   }
+  it('a scores name that is not an output is refused with the outputs there are', () => {
+    assert.throws(() => loadModel(path.join(DIR, 'two_outputs', 'model.onnx'), { scores: 'logit' }),
+      (e: Error) => /no output 'logit' \(its outputs: embedding, logits\)/.test(e.message) && /--scores/.test((e as Error & { hint?: string }).hint ?? e.message));
+  });
   after(() => {
     if (Object.keys(variantErrors).length) console.log('\n  worst rel L2 per export variant:', Object.entries(variantErrors).map(([f, e]) => `${f} ${e.toExponential(1)}`).join(', '));
   });
