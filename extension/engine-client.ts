@@ -81,10 +81,10 @@ export function describeExit(code: number | null, signal: NodeJS.Signals | null,
   const heap = /heap out of memory|Allocation failed|out of memory/i.test(stderrTail);
   const base = { code, signal };
   if (heap || signal === 'SIGABRT' || code === 134) {
-    return { ...base, outOfMemory: true, message: 'The Factfoil engine ran out of memory and was restarted.', hint: 'Lower factfoil.memoryBudgetMiB, use a probe estimate, or explain fewer layers at once.' };
+    return { ...base, outOfMemory: true, message: 'The Factfoil engine ran out of memory and was restarted.', hint: 'Lower factfoil.memoryBudgetMB, use a probe estimate, or explain fewer layers at once.' };
   }
   if (signal === 'SIGKILL') {
-    return { ...base, outOfMemory: true, message: 'The Factfoil engine was killed (SIGKILL), most often by the system running out of memory; it will restart.', hint: 'Lower factfoil.memoryBudgetMiB or close other memory-hungry programs.' };
+    return { ...base, outOfMemory: true, message: 'The Factfoil engine was killed (SIGKILL), most often by the system running out of memory; it will restart.', hint: 'Lower factfoil.memoryBudgetMB or close other memory-hungry programs.' };
   }
   const how = signal ? `signal ${signal}` : `exit code ${code}`;
   return { ...base, outOfMemory: false, message: `The Factfoil engine stopped unexpectedly (${how}) and will restart.`, hint: 'Details are in the Factfoil output channel.' };

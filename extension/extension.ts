@@ -18,7 +18,9 @@ const IMAGE_FILTER = { Images: ['png', 'jpg', 'jpeg', 'webp', 'tif', 'tiff', 'gi
 
 function settings(): FactfoilSettings {
   const c = vscode.workspace.getConfiguration(SETTINGS_SECTION);
-  return resolveSettings((k) => c.get(k));
+  // Only what the user set (the defaults are DEFAULT_SETTINGS, equal to package.json's), so a
+  // renamed setting's old id is read when the new one is unset.
+  return resolveSettings((k) => { const i = c.inspect(k); return i?.workspaceFolderValue ?? i?.workspaceValue ?? i?.globalValue; });
 }
 
 function workspaceFolderOf(file: string): string | undefined {

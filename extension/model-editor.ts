@@ -1,5 +1,6 @@
 /**
- * The read-only custom editor for `.onnx` files (priority "option": the default editor stays):
+ * The read-only custom editor for `.onnx` files, their default editor (a click on one in the
+ * Explorer shows the summary, not the binary as text):
  * the model summary from the engine, and a way to pick or drop an image to explain with it.
  */
 import * as path from 'node:path';

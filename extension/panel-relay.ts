@@ -210,7 +210,7 @@ export class PanelRelay {
       const R = view.summary.scores.numClasses;
       const req = this.d.engine.request({
         op: 'maps', viewId: view.viewId, kind: m.kind, fact: m.fact, layers: m.layers, estimate: plan,
-        probeSeeds: settings.probeSeeds, budgetMiB: settings.memoryBudgetMiB,
+        probeSeeds: settings.probeSeeds, budgetMiB: settings.memoryBudgetMB,
         ...(m.variant ? { variant: m.variant } : {}), ...(m.foil !== undefined ? { foil: m.foil } : {}),
       }, {
         onPartial: (r) => this.post({ type: 'mapsResult', id: m.id, maps: r.maps.map(mapData), final: false }),
@@ -234,7 +234,6 @@ export class PanelRelay {
   }
 
   private async onTrust(m: Extract<FromWebview, { type: 'requestTrust' }>): Promise<void> {
-    let progress: ProgressHandle | undefined;
     try {
       const view = await this.ensureView();
       const req = this.d.engine.request({
@@ -243,11 +242,10 @@ export class PanelRelay {
         // A file path from the webview is never followed: the engine finds the image's own mask.
         ...(m.seed !== undefined ? { seed: m.seed } : {}),
       }, {
+        // The panel shows this progress in its own row with Cancel, beside Run checks: no notification,
+        // which would cover the panel. Steps are whole numbers (deletion runs report fractions).
         onProgress: (done, total, message) => {
-          this.post({ type: 'trustProgress', id: m.id, done, total, ...(message ? { message: message.slice(0, 2000) } : {}) });
-          // Randomized models and perturbed inputs add up: a notification with Cancel.
-          progress ??= this.d.ui.startProgress('Factfoil: trust checks', () => this.d.engine.cancel(req.id));
-          progress.report(done, total, message);
+          this.post({ type: 'trustProgress', id: m.id, done: Math.floor(done), total: Math.round(total), ...(message ? { message: message.slice(0, 2000) } : {}) });
         },
       });
       this.running.set(m.id, req.id);
@@ -255,8 +253,6 @@ export class PanelRelay {
       this.post({ type: 'trustResult', id: m.id, report });
     } catch (e) {
       this.fail(m.id, e);
-    } finally {
-      progress?.end();
     }
   }
 

@@ -19,7 +19,8 @@ export interface FactfoilSettings {
   probeSeeds: number;
   /** onnxruntime intra-op threads; 0 lets the runtime decide. */
   threads: number;
-  memoryBudgetMiB: number;
+  /** Memory for one seed chunk, in MB of 2^20 bytes (the id once ended in MiB, which VS Code titled "Mi B"). */
+  memoryBudgetMB: number;
   saveLocation: SaveLocation;
   /** Used when saveLocation is 'folder'; relative to the image's workspace folder. */
   saveFolder: string;
@@ -35,12 +36,16 @@ export const DEFAULT_SETTINGS: FactfoilSettings = {
   probeSeeds: 32,
   threads: 0,
   // 1 GiB per seed chunk, the engine's own default (core/engine/budget.ts).
-  memoryBudgetMiB: 1024,
+  memoryBudgetMB: 1024,
   saveLocation: 'besideImage',
   saveFolder: 'factfoil-maps',
 };
 
-export type SettingGetter = (key: keyof FactfoilSettings) => unknown;
+/** Setting ids that were renamed, and the old id still read when only it is set. */
+export const RENAMED_SETTINGS = { memoryBudgetMB: 'memoryBudgetMiB' } as const;
+
+/** The user's value of a setting, or undefined when none is set (the defaults are ours). */
+export type SettingGetter = (key: keyof FactfoilSettings | (typeof RENAMED_SETTINGS)[keyof typeof RENAMED_SETTINGS]) => unknown;
 
 function intIn(v: unknown, lo: number, hi: number, fallback: number): number {
   return typeof v === 'number' && Number.isInteger(v) && v >= lo && v <= hi ? v : fallback;
@@ -64,7 +69,7 @@ export function resolveSettings(get: SettingGetter): FactfoilSettings {
     estimate: oneOf(get('estimate'), ['auto', 'exact', 'probe'] as const, d.estimate),
     probeSeeds: intIn(get('probeSeeds'), 1, 4096, d.probeSeeds),
     threads: intIn(get('threads'), 0, 256, d.threads),
-    memoryBudgetMiB: intIn(get('memoryBudgetMiB'), 64, 1 << 20, d.memoryBudgetMiB),
+    memoryBudgetMB: intIn(get('memoryBudgetMB') ?? get(RENAMED_SETTINGS.memoryBudgetMB), 64, 1 << 20, d.memoryBudgetMB),
     saveLocation: oneOf(get('saveLocation'), ['besideImage', 'folder'] as const, d.saveLocation),
     saveFolder: typeof folder === 'string' && folder.trim() ? folder : d.saveFolder,
   };

@@ -47,7 +47,7 @@ describe('engine client', function () {
     const c = new EngineClient({ script: file, log, onExit: (e) => exits.push(e.message) });
     try {
       await assert.rejects(c.request({ op: 'crash', how: 'exit' }).result,
-        (e: unknown) => e instanceof EngineRequestError && e.kind === 'stopped' && /ran out of memory/.test(e.message) && /memoryBudgetMiB/.test(e.hint ?? ''));
+        (e: unknown) => e instanceof EngineRequestError && e.kind === 'stopped' && /ran out of memory/.test(e.message) && /memoryBudgetMB/.test(e.hint ?? ''));
       assert.deepEqual(exits, ['The Factfoil engine ran out of memory and was restarted.']);
       const gen = c.generation;
       assert.deepEqual(await c.request({ op: 'closeView', viewId: 'v' }).result, {});

@@ -22,8 +22,8 @@ describe('extension manifest (package.json)', () => {
     assert.ok(!re.test('.onnx') && !re.test('.pngx'));
   });
 
-  it('registers the .onnx summary as an optional (non-default) read-only editor', () => {
-    assert.deepEqual(pkg.contributes.customEditors, [{ viewType: MODEL_EDITOR_VIEW_TYPE, displayName: 'Factfoil Model Summary', selector: [{ filenamePattern: '*.onnx' }], priority: 'option' }]);
+  it('registers the .onnx summary as the default editor of .onnx files (a click shows it, not binary text)', () => {
+    assert.deepEqual(pkg.contributes.customEditors, [{ viewType: MODEL_EDITOR_VIEW_TYPE, displayName: 'Factfoil Model Summary', selector: [{ filenamePattern: '*.onnx' }], priority: 'default' }]);
   });
 
   it('declares every setting the extension reads, with the same defaults', () => {

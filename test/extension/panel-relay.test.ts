@@ -145,7 +145,7 @@ describe('panel relay (extension host side of the panel)', () => {
   });
 
   it('relays a mismatch request: probe estimate first (final: false), then exact (final: true), progress with Cancel', async () => {
-    const { relay, engine, ofType, ui } = setup({ probeSeeds: 4, memoryBudgetMiB: 256 });
+    const { relay, engine, ofType, ui } = setup({ probeSeeds: 4, memoryBudgetMB: 256 });
     relay.receive({ type: 'requestMaps', id: 7, kind: 'mismatch', variant: 'weighted', fact: 1, layers: ['stage1'], estimate: 'auto' });
     await tick();
     const call = engine.last('maps');
@@ -211,7 +211,7 @@ describe('panel relay (extension host side of the panel)', () => {
     const { relay, engine, ofType } = setup();
     relay.receive({ type: 'ready', version: PROTOCOL_VERSION });
     await tick();
-    relay.engineStopped('The Factfoil engine ran out of memory and was restarted.', 'Lower factfoil.memoryBudgetMiB');
+    relay.engineStopped('The Factfoil engine ran out of memory and was restarted.', 'Lower factfoil.memoryBudgetMB');
     assert.equal(ofType('notice')[0].message, 'The Factfoil engine ran out of memory and was restarted.');
     engine.generation = 2;
     relay.receive({ type: 'requestMaps', id: 9, kind: 'evidence', fact: 1, layers: ['stage1'] });
@@ -279,22 +279,25 @@ describe('panel relay (extension host side of the panel)', () => {
     assert.ok(logs.some((l) => /not sending a malformed init/.test(l)));
   });
 
-  it('relays a trust request: fields passed on, progress as trustProgress with a Cancel notification, the report as trustResult', async () => {
+  it('relays a trust request: fields passed on, progress as whole-step trustProgress (no notification over the panel), cancel by the panel, the report as trustResult', async () => {
     const { relay, engine, ofType, ui } = setup();
     relay.receive({ type: 'requestTrust', id: 21, layer: 'stage1', fact: 1, foil: 2, tests: ['truth', 'sanity'], kinds: ['evidence'], box: { x: 1, y: 2, width: 3, height: 4 }, seed: 7 });
     await tick();
     const call = engine.last('trust');
     assert.deepEqual(call.req, { op: 'trust', viewId: 'v1', layer: 'stage1', fact: 1, foil: 2, tests: ['truth', 'sanity'], kinds: ['evidence'], box: { x: 1, y: 2, width: 3, height: 4 }, seed: 7 });
     call.handlers.onProgress!(1, 5, 'maps of the trained model');
-    assert.equal(ui.progress[0].title, 'Factfoil: trust checks');
-    ui.progress[0].cancel();
+    call.handlers.onProgress!(1.656862745098039, 5, 'deletion and insertion');
+    assert.equal(ui.progress.length, 0, 'the panel shows trust progress itself');
+    relay.receive({ type: 'cancel', id: 21 });
     assert.deepEqual(engine.cancelled, [call.id]);
     const report = { format: 'factfoil-trust/1', layer: 'stage1', fact: 1, foil: 2, p_fact: 0.65, kinds: ['evidence'], seed: 7, notes: [] };
     call.resolve(report);
     await tick();
-    assert.deepEqual(ofType('trustProgress'), [{ type: 'trustProgress', id: 21, done: 1, total: 5, message: 'maps of the trained model' }]);
+    assert.deepEqual(ofType('trustProgress'), [
+      { type: 'trustProgress', id: 21, done: 1, total: 5, message: 'maps of the trained model' },
+      { type: 'trustProgress', id: 21, done: 1, total: 5, message: 'deletion and insertion' },
+    ]);
     assert.deepEqual(ofType('trustResult'), [{ type: 'trustResult', id: 21, report }]);
-    assert.equal(ui.progress[0].ended, true);
     // A box and a mask together never reach the engine.
     relay.receive({ type: 'requestTrust', id: 22, layer: 'stage1', fact: 1, tests: ['truth'], box: { x: 1, y: 2, width: 3, height: 4 }, maskFile: '/m.png' });
     await tick();

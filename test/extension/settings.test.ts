@@ -5,14 +5,19 @@ import { DEFAULT_SETTINGS, defaultModelFor, estimatePlan, resolveSettings, saveF
 describe('extension settings', () => {
   it('falls back to the defaults for missing, mistyped or out-of-range values', () => {
     assert.deepEqual(resolveSettings(() => undefined), DEFAULT_SETTINGS);
-    const bad: Record<string, unknown> = { defaultMapKind: 'heatmap', colormap: 'jet', threads: -1, memoryBudgetMiB: 1.5, probeSeeds: '8', saveLocation: 'cloud', saveFolder: '  ', defaultModels: ['x'], estimate: 'fast' };
+    const bad: Record<string, unknown> = { defaultMapKind: 'heatmap', colormap: 'jet', threads: -1, memoryBudgetMB: 1.5, probeSeeds: '8', saveLocation: 'cloud', saveFolder: '  ', defaultModels: ['x'], estimate: 'fast' };
     assert.deepEqual(resolveSettings((k) => bad[k]), DEFAULT_SETTINGS);
   });
 
   it('keeps valid values', () => {
-    const good: Record<string, unknown> = { defaultMapKind: 'mismatch', colormap: 'inferno', threads: 4, memoryBudgetMiB: 256, probeSeeds: 8, saveLocation: 'folder', saveFolder: 'maps', estimate: 'exact', defaultModels: { imgs: 'm.onnx', bad: 3 } };
+    const good: Record<string, unknown> = { defaultMapKind: 'mismatch', colormap: 'inferno', threads: 4, memoryBudgetMB: 256, probeSeeds: 8, saveLocation: 'folder', saveFolder: 'maps', estimate: 'exact', defaultModels: { imgs: 'm.onnx', bad: 3 } };
     const s = resolveSettings((k) => good[k]);
-    assert.deepEqual(s, { ...DEFAULT_SETTINGS, defaultMapKind: 'mismatch', colormap: 'inferno', threads: 4, memoryBudgetMiB: 256, probeSeeds: 8, saveLocation: 'folder', saveFolder: 'maps', estimate: 'exact', defaultModels: { imgs: 'm.onnx' } });
+    assert.deepEqual(s, { ...DEFAULT_SETTINGS, defaultMapKind: 'mismatch', colormap: 'inferno', threads: 4, memoryBudgetMB: 256, probeSeeds: 8, saveLocation: 'folder', saveFolder: 'maps', estimate: 'exact', defaultModels: { imgs: 'm.onnx' } });
+  });
+
+  it('reads the memory budget under its old id (memoryBudgetMiB) when only that one is set', () => {
+    assert.equal(resolveSettings((k) => ({ memoryBudgetMiB: 300 } as Record<string, unknown>)[k]).memoryBudgetMB, 300);
+    assert.equal(resolveSettings((k) => ({ memoryBudgetMiB: 300, memoryBudgetMB: 200 } as Record<string, unknown>)[k]).memoryBudgetMB, 200, 'the new id wins');
   });
 
   it('picks the default model of the deepest configured folder containing the image', () => {
