@@ -26,8 +26,13 @@ export interface ModelAnalysis {
   facts: TensorFacts;
   inputName: string;
   shape(name: string): number[];
-  /** Depends on the image's values and is float: gradients flow through it. */
+  /**
+   * Depends on the image's values and is float, or is the integer output of a QuantizeLinear
+   * standing for a float value (gradients pass it straight through): gradients flow through it.
+   */
   differentiable(name: string): boolean;
+  /** Differentiable and float: a tensor whose values a map may use as an activation. */
+  floatValued(name: string): boolean;
   value(name: string): number[] | undefined;
 }
 
@@ -70,7 +75,10 @@ export function analyseModel(graph: GraphIndex, facts: TensorFacts, inputName: s
     differentiable(name) {
       if (!valueDependent.has(name)) return false;
       const kind = facts.get(name)?.kind;
-      return kind === 'float';
+      return kind === 'float' || graph.producer.get(name)?.opType === 'QuantizeLinear';
+    },
+    floatValued(name) {
+      return valueDependent.has(name) && facts.get(name)?.kind === 'float';
     },
     value(name) {
       if (valueDependent.has(name)) return undefined;

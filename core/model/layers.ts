@@ -104,7 +104,7 @@ export function listLayers(a: ModelAnalysis, scores: string): LayerInfo[] {
   const layers: LayerInfo[] = [];
   for (const n of a.graph.order) {
     for (const o of n.outputs) {
-      if (!o || !relevant.has(o) || !a.differentiable(o)) continue;
+      if (!o || !relevant.has(o) || !a.floatValued(o)) continue;
       const g = gridOf(a.shape(o));
       if (!g) continue;
       const b = blocked.get(o);

@@ -45,13 +45,46 @@ class VariantNet(nn.Module):
         self.block2 = nn.Identity()
         self.fc = nn.Linear(8, NUM_CLASSES)
 
+        # q(name, t): where a quantized export rounds a tensor to int8 (identity in the float net)
+        self.q = lambda name, t: t
+
     def forward(self, x):
-        a = self.block1(self.pool(F.relu(self.bn1(self.conv1(x)))))          # [1,8,8,8]
-        h = F.relu(self.bn2(self.conv2(F.pad(a, (1, 1, 1, 1)))))              # [1,8,8,8]
+        q = self.q
+        x = q("input", x)
+        a = self.block1(q("pool", self.pool(F.relu(self.bn1(self.conv1(x))))))  # [1,8,8,8]
+        h = q("relu2", F.relu(self.bn2(self.conv2(F.pad(a, (1, 1, 1, 1))))))     # [1,8,8,8]
         h = F.avg_pool2d(F.interpolate(h, scale_factor=2.0, mode="nearest"), 2)
-        b = self.block2(h[:, :, 1:, 1:])                                        # [1,8,7,7]
+        b = self.block2(q("slice", h[:, :, 1:, 1:]))                            # [1,8,7,7]
         f = b.mean(dim=(2, 3), keepdim=True)
         return self.fc(f.reshape(f.shape[0], -1))
+
+
+def int8_scales(net, x):
+    """Symmetric per-tensor int8 scales, max|t|/127 over this input (so nothing saturates)."""
+    seen = {}
+    net.q = lambda name, t: seen.setdefault(name, float(t.detach().abs().max()) / 127.0) and t
+    with torch.no_grad():
+        net(x)
+    net.q = lambda name, t: t
+    return seen
+
+
+def export_fake_quant(scales):
+    """The exported form: PyTorch writes fake_quantize as QuantizeLinear -> DequantizeLinear."""
+    return lambda name, t: torch.fake_quantize_per_tensor_affine(t, scales[name], 0, -128, 127)
+
+
+def ste_fake_quant(scales):
+    """Reference form, any dtype: the forward rounds like ONNX QuantizeLinear (half to even,
+    saturate to int8) and dequantizes; the backward is the straight-through estimator (Bengio,
+    Leonard & Courville 2013, "Estimating or propagating gradients through stochastic neurons"),
+    in its clipped form: gradient 1 where the value lies inside the int8 range, 0 outside."""
+    def fq(name, t):
+        u = t / scales[name]
+        inside = ((u.detach() >= -128.5) & (u.detach() <= 127.5)).to(t.dtype)
+        y = torch.clamp(torch.round(u.detach()), -128, 127) * scales[name]
+        return y + (t - t.detach()) * inside
+    return fq
 
 
 TAPS = [("block1", "block1", "out"), ("block2", "block2", "out")]
@@ -99,6 +132,94 @@ def export(model, x, path, opset, keep_inputs=False, dynamic=False, head=None):
         m.graph.output.remove(o)
     onnx.checker.check_model(m)
     return m
+
+
+def quantize_conv_weights(net):
+    """Per-output-channel symmetric int8 weights, as QDQ exports store them: the nets' weights are
+    rounded to the int8 grid in place; returns {param name: (int8 values, scales)}."""
+    out = {}
+    with torch.no_grad():
+        for name in ("conv1", "conv2"):
+            w = getattr(net, name).weight
+            s = w.abs().amax(dim=(1, 2, 3)) / 127.0
+            q = torch.clamp(torch.round(w / s[:, None, None, None]), -128, 127)
+            w.copy_(q * s[:, None, None, None])
+            out[name] = (q.numpy().astype(np.int8), s.numpy().astype(np.float32))
+    return out
+
+
+def weights_as_dequantize(m, qweights, net):
+    """Replaces each Conv weight initializer that equals a quantized weight by an int8 initializer
+    and a per-channel DequantizeLinear (axis 0), the layout of QDQ exports."""
+    from onnx import helper, numpy_helper
+    inits = {i.name: i for i in m.graph.initializer}
+    nodes = []
+    for n in m.graph.node:
+        if n.op_type == "Conv" and n.input[1] in inits:
+            w = numpy_helper.to_array(inits[n.input[1]])
+            for name, (q, s) in qweights.items():
+                if w.shape == q.shape and np.allclose(w, q * s[:, None, None, None], atol=1e-6):
+                    base = n.input[1]
+                    m.graph.initializer.remove(inits[base])
+                    m.graph.initializer.extend([numpy_helper.from_array(q, base + "_int8"),
+                                                numpy_helper.from_array(s, base + "_scale"),
+                                                numpy_helper.from_array(np.zeros(len(s), np.int8), base + "_zero")])
+                    nodes.append(helper.make_node("DequantizeLinear", [base + "_int8", base + "_scale", base + "_zero"], [base],
+                                                  name=base + "_dequantize", axis=0))
+        nodes.append(n)
+    del m.graph.node[:]
+    m.graph.node.extend(nodes)
+    onnx.checker.check_model(m)
+    return m
+
+
+def make_int8_qdq(net, x32):
+    """int8 QDQ export of the same net: int8 per-channel Conv weights behind DequantizeLinear, and
+    QuantizeLinear -> DequantizeLinear on the input and three activations. The reference is the
+    same quantized net in PyTorch float64 with straight-through gradients (ste_fake_quant)."""
+    qnet = copy.deepcopy(net).eval()
+    # BatchNormalization folded into the Conv first (as the export does), so the int8 weights are the folded ones
+    from torch.nn.utils.fusion import fuse_conv_bn_eval
+    qnet.conv1, qnet.bn1 = fuse_conv_bn_eval(qnet.conv1, qnet.bn1), nn.Identity()
+    qnet.conv2, qnet.bn2 = fuse_conv_bn_eval(qnet.conv2, qnet.bn2), nn.Identity()
+    qweights = quantize_conv_weights(qnet)
+    scales = int8_scales(qnet, x32)
+    d = os.path.join(OUT, "int8_qdq")
+    os.makedirs(d)
+    qnet.q = export_fake_quant(scales)
+    m = export(qnet, x32, os.path.join(d, "model.onnx"), 13)
+    m = weights_as_dequantize(m, qweights, qnet)
+    onnx.save(m, os.path.join(d, "model.onnx"))
+    dq = sum(n.op_type == "DequantizeLinear" for n in m.graph.node)
+    assert dq >= 6, f"expected DequantizeLinear on weights and activations, found {dq}"
+
+    def run(dtype):
+        r = copy.deepcopy(qnet).to(dtype).eval()
+        r.q = ste_fake_quant(scales)
+        cap = Capture(r, TAPS)
+        x = x32.to(dtype).requires_grad_(True)
+        z = r(x)
+        acts = dict(cap.values)
+        cap.remove()
+        return z, acts
+
+    z64, acts64 = run(torch.float64)
+    z32, acts32 = run(torch.float32)
+    zs = z64.detach().numpy()[0]
+    order = np.argsort(-zs)
+    checks = []
+    for layer in [t[0] for t in TAPS]:
+        for loss, target in (("logit", int(order[0])), ("ce", int(order[1]))):
+            grads = []
+            for z, acts in ((z64, acts64), (z32, acts32)):
+                s = z[0, target] if loss == "logit" else F.cross_entropy(z, torch.tensor([target]))
+                (g,) = torch.autograd.grad(s, acts[layer], retain_graph=True)
+                grads.append(g.detach().double().numpy()[0])
+            fname = f"grad_{layer}_{loss}_{target}.npy"
+            save_npy(os.path.join(d, fname), grads[0])
+            checks.append({"layer": layer, "loss": loss, "target": target, "grad": f"int8_qdq/{fname}",
+                           "torch_float32_rel_l2": rel_l2(grads[1], grads[0])})
+    return m, {"logits": [float(v) for v in zs], "checks": checks, "scales": scales}
 
 
 def raise_opset(m, opset):
@@ -196,6 +317,13 @@ def main():
             row["scores_option"] = opts["scores"]
         variants.append(row)
         print(f"variants/{name}: opset {opset} ops {' '.join(ops)}")
+
+    m, own = make_int8_qdq(net, x32)
+    ops = sorted({n.op_type for n in m.graph.node})
+    variants.append({"name": "int8_qdq", "model": "int8_qdq/model.onnx", "opset": 13, "op_types": ops,
+                     "note": "int8 QDQ: per-channel int8 Conv weights and QuantizeLinear/DequantizeLinear on four activations; "
+                             "reference: the same quantized net in PyTorch float64 with straight-through gradients", **own})
+    print(f"variants/int8_qdq: opset 13 ops {' '.join(ops)}")
 
     save_json(os.path.join(OUT, "refs.json"), {
         "input": "input.npy", "input_shape": [1, 3, S, S], "scores": "logits", "num_classes": NUM_CLASSES,

@@ -10,10 +10,11 @@ import { softmaxRules } from './softmax';
 import { reduceRules } from './reduce';
 import { layoutRules } from './layout';
 import { indexingRules } from './indexing';
+import { quantizeRules } from './quantize';
 
 export const gradientRules: Readonly<Record<string, GradientRule>> = {
   ...activationRules, ...arithmeticRules, ...convRules, ...matmulRules, ...poolRules,
-  ...normalizationRules, ...softmaxRules, ...reduceRules, ...layoutRules, ...indexingRules,
+  ...normalizationRules, ...softmaxRules, ...reduceRules, ...layoutRules, ...indexingRules, ...quantizeRules,
 };
 
 export function hasGradientRule(opType: string, domain = ''): boolean {
