@@ -7,6 +7,7 @@ import { decodeModelProto, elemTypeName, ModelProto, NodeProto, TensorProto, Ten
 import { GraphIndex, indexGraph } from './graph';
 import { checkTensorPayload } from './tensor';
 import { sniffFileType } from './sniff';
+import { hasFloat16, widenFloat16 } from './widen';
 
 /** IR and opset range this build understands (ORT 1.30 runs more; models are upgraded to opset 18 for differentiation). */
 export const IR_RANGE = [3, 10] as const;
@@ -43,6 +44,8 @@ export interface LoadedModel {
   /** The classifier's output: the one chosen by name (`scores` option), else the graph's first. */
   output: string;
   metadata: Record<string, string>;
+  /** The file holds float16 tensors; they were widened to float32 (widen.ts) and run in float32. */
+  widenedFromFloat16: boolean;
 }
 
 export interface LoadOptions {
@@ -91,6 +94,8 @@ export function modelFromBytes(bytes: Uint8Array, modelPath: string, opts: LoadO
   }
   dropTrailingEmptyInputs(proto.graph.node ?? []);
   inlineExternalData(proto.graph.initializer ?? [], modelPath);
+  const widenedFromFloat16 = hasFloat16(proto);
+  if (widenedFromFloat16) widenFloat16(proto);
   for (const t of proto.graph.initializer ?? []) checkTensorPayload(t, `${modelPath}: initializer '${t.name ?? ''}'`);
   refuseCustomOps(proto, modelPath);
   const graph = indexGraph(proto.graph, modelPath);
@@ -103,7 +108,7 @@ export function modelFromBytes(bytes: Uint8Array, modelPath: string, opts: LoadO
   const output = pickOutput(graph.outputs, modelPath, opts.scores);
   const metadata: Record<string, string> = {};
   for (const p of proto.metadata_props ?? []) if (p.key) metadata[p.key] = p.value ?? '';
-  return { path: modelPath, sha256, proto, graph, irVersion, opset, input, output, metadata };
+  return { path: modelPath, sha256, proto, graph, irVersion, opset, input, output, metadata, widenedFromFloat16 };
 }
 
 /**

@@ -222,6 +222,62 @@ def make_int8_qdq(net, x32):
     return m, {"logits": [float(v) for v in zs], "checks": checks, "scales": scales}
 
 
+def to_float16(m):
+    """The float16 form an fp16 export has: every float tensor (weights, Constants, Cast targets,
+    input and output) in float16, except the inputs ONNX requires in float32 (Resize roi/scales)."""
+    from onnx import TensorProto, numpy_helper
+    keep32 = {n.input[i] for n in m.graph.node if n.op_type == "Resize" for i in (1, 2) if len(n.input) > i}
+    for i, t in enumerate(m.graph.initializer):
+        if t.data_type == TensorProto.FLOAT and t.name not in keep32:
+            m.graph.initializer[i].CopyFrom(numpy_helper.from_array(numpy_helper.to_array(t).astype(np.float16), t.name))
+    for n in m.graph.node:
+        for a in n.attribute:
+            if n.op_type == "Constant" and a.name == "value" and a.t.data_type == TensorProto.FLOAT and n.output[0] not in keep32:
+                a.t.CopyFrom(numpy_helper.from_array(numpy_helper.to_array(a.t).astype(np.float16)))
+            if n.op_type == "Cast" and a.name == "to" and a.i == TensorProto.FLOAT and n.output[0] not in keep32:
+                a.i = TensorProto.FLOAT16
+    for v in list(m.graph.input) + list(m.graph.output):
+        if v.type.tensor_type.elem_type == TensorProto.FLOAT:
+            v.type.tensor_type.elem_type = TensorProto.FLOAT16
+    del m.graph.value_info[:]
+    onnx.checker.check_model(m)
+    return m
+
+
+def make_float16(net, x32):
+    """float16 export of the net (BatchNormalization folded into the Conv first, as the export does,
+    so the float16 weights are the folded ones). Reference: the same float16-rounded weights in
+    PyTorch float64 (widening float16 to float32 is exact), fed the float32 input."""
+    from torch.nn.utils.fusion import fuse_conv_bn_eval
+    hnet = copy.deepcopy(net).eval()
+    hnet.conv1, hnet.bn1 = fuse_conv_bn_eval(hnet.conv1, hnet.bn1), nn.Identity()
+    hnet.conv2, hnet.bn2 = fuse_conv_bn_eval(hnet.conv2, hnet.bn2), nn.Identity()
+    with torch.no_grad():
+        for p in hnet.parameters():
+            p.copy_(p.half().float())
+    d = os.path.join(OUT, "float16")
+    os.makedirs(d)
+    m = to_float16(export(hnet, x32, os.path.join(d, "model.onnx"), 13))
+    onnx.save(m, os.path.join(d, "model.onnx"))
+    r = copy.deepcopy(hnet).double().eval()
+    cap = Capture(r, TAPS)
+    x = x32.double().requires_grad_(True)
+    z = r(x)
+    acts = dict(cap.values)
+    cap.remove()
+    zs = z.detach().numpy()[0]
+    order = np.argsort(-zs)
+    checks = []
+    for layer in [t[0] for t in TAPS]:
+        for loss, target in (("logit", int(order[0])), ("ce", int(order[1]))):
+            s = z[0, target] if loss == "logit" else F.cross_entropy(z, torch.tensor([target]))
+            (g,) = torch.autograd.grad(s, acts[layer], retain_graph=True)
+            fname = f"grad_{layer}_{loss}_{target}.npy"
+            save_npy(os.path.join(d, fname), g.detach().numpy()[0])
+            checks.append({"layer": layer, "loss": loss, "target": target, "grad": f"float16/{fname}"})
+    return m, {"logits": [float(v) for v in zs], "checks": checks}
+
+
 def raise_opset(m, opset):
     """PyTorch 1.13 and onnx 1.12 stop at opset 17; later opsets are written by hand. Of this
     net's ops only ReduceMean changed (18: axes attribute -> input; ONNX Changelog.md); 19-21 changed
@@ -317,6 +373,13 @@ def main():
             row["scores_option"] = opts["scores"]
         variants.append(row)
         print(f"variants/{name}: opset {opset} ops {' '.join(ops)}")
+
+    m, own = make_float16(net, x32)
+    ops = sorted({n.op_type for n in m.graph.node})
+    variants.append({"name": "float16", "model": "float16/model.onnx", "opset": 13, "op_types": ops,
+                     "note": "float16 weights, input and output; run in float32 (widened exactly); reference: the "
+                             "float16-rounded weights in PyTorch float64", **own})
+    print(f"variants/float16: opset 13 ops {' '.join(ops)}")
 
     m, own = make_int8_qdq(net, x32)
     ops = sorted({n.op_type for n in m.graph.node})

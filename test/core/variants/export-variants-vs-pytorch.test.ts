@@ -38,6 +38,7 @@ describe('export variants vs PyTorch float64 reference gradients (test-fixtures/
     it(`${v.name}: logits and gradients at two layers match PyTorch float64 (rel L2 ≤ 1e-4)`, async () => {
       const model = loadModel(path.join(DIR, v.model), { scores: v.scores_option });
       assert.equal(model.opset, v.opset);
+      assert.equal(model.widenedFromFloat16, v.name === 'float16', 'float16 tensors are found and widened, and only there');
       const input = await readNpy(path.join(DIR, v.input ?? refs!.input));
       const pm = await engine.prepare(model, input.shape);
       assert.equal(pm.scores.tensor, refs!.scores);
