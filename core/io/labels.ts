@@ -11,7 +11,20 @@ import { sidecarPath, type Sidecar } from './sidecar';
 /** ONNX metadata_props keys searched for labels, in this order. */
 export const LABEL_METADATA_KEYS = ['labels', 'classes', 'class_names', 'names'];
 
-export type LabelSource = 'file' | 'sidecar' | 'metadata' | 'generated';
+export type LabelSource = 'file' | 'sidecar' | 'beside' | 'metadata' | 'generated';
+
+/**
+ * Labels files looked for beside a model that has no sidecar labels, in this order (`{stem}` is
+ * the model's file name without `.onnx`): the names exporters and training scripts commonly
+ * leave next to a model (common practice, no source).
+ */
+export const LABEL_FILES_BESIDE_MODEL = ['{stem}.labels.txt', '{stem}.labels.json', 'labels.txt', 'labels.json', 'classes.txt', 'classes.json'];
+
+/** The labels files beside a model, by LABEL_FILES_BESIDE_MODEL, most specific first. */
+export function labelFilesBeside(modelPath: string): string[] {
+  const stem = path.basename(modelPath).replace(/\.onnx$/i, '');
+  return LABEL_FILES_BESIDE_MODEL.map((n) => path.join(path.dirname(modelPath), n.replace('{stem}', stem)));
+}
 
 export interface LoadLabelsOptions {
   modelPath: string;
@@ -38,7 +51,8 @@ export async function loadLabels(opts: LoadLabelsOptions): Promise<string[]> {
 
 /**
  * Labels in order of precedence: the explicit file; the sidecar's "labels" (a file relative to
- * the sidecar, or an array); the first of LABEL_METADATA_KEYS in the ONNX metadata; else
+ * the sidecar, or an array); a labels file beside the model (LABEL_FILES_BESIDE_MODEL) with one
+ * label per class; the first of LABEL_METADATA_KEYS in the ONNX metadata; else
  * `class 0` … `class N−1`. Files hold one label per line or a JSON array (or a JSON object
  * mapping "0", "1", … to labels). A count that differs from numClasses is an error.
  */
@@ -59,6 +73,13 @@ export async function loadLabelsWithSource(opts: LoadLabelsOptions): Promise<Loa
     if (Array.isArray(sc)) return { labels: checkCount([...sc], `${scFile} ("labels")`), source: 'sidecar', from: scFile };
     const file = path.resolve(path.dirname(scFile), sc);
     return { labels: checkCount(await readLabelsFile(file, scFile), file), source: 'sidecar', from: file };
+  }
+  // A file beside the model counts only when it has one label per class: another model's labels
+  // in the same folder must not break this one.
+  for (const file of labelFilesBeside(opts.modelPath)) {
+    let labels: string[];
+    try { labels = await readLabelsFile(file); } catch { continue; }
+    if (numClasses === undefined || labels.length === numClasses) return { labels, source: 'beside', from: file };
   }
   const props = opts.metadataProps ?? {};
   for (const key of LABEL_METADATA_KEYS) {

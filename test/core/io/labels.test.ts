@@ -51,6 +51,19 @@ describe('core/io/labels', () => {
     assert.deepEqual(await loadLabels({ modelPath: 'm.onnx', metadataProps: { author: 'x', names: '{"0":"a","1":"b"}' } }), ['a', 'b']);
   });
 
+  it('finds a labels file beside a model without sidecar labels: <stem>.labels.txt before labels.txt, only with one label per class', async () => {
+    const d = dir();
+    const modelPath = path.join(d, 'sorter.onnx');
+    writeFileSync(path.join(d, 'labels.txt'), 'a\nb\nc\n');
+    assert.deepEqual(await loadLabelsWithSource({ modelPath, numClasses: 3 }), { labels: ['a', 'b', 'c'], source: 'beside', from: path.join(d, 'labels.txt') });
+    writeFileSync(path.join(d, 'sorter.labels.txt'), 'x\ny\nz\n');
+    assert.deepEqual((await loadLabelsWithSource({ modelPath, numClasses: 3 })).labels, ['x', 'y', 'z']);
+    // Another model's labels in the folder (wrong count) are passed over, not an error.
+    assert.deepEqual(await loadLabelsWithSource({ modelPath, numClasses: 2, metadataProps: { labels: 'p,q' } }), { labels: ['p', 'q'], source: 'metadata', from: 'labels' });
+    assert.equal((await loadLabelsWithSource({ modelPath, numClasses: 4 })).source, 'generated');
+    assert.equal((await loadLabelsWithSource({ modelPath, sidecar: { format: 'factfoil-model/1', labels: ['s', 't', 'u'] }, numClasses: 3 })).source, 'sidecar', 'the sidecar wins');
+  });
+
   it('falls back to class 0 … class N−1', async () => {
     assert.deepEqual(await loadLabelsWithSource({ modelPath: 'm.onnx', numClasses: 3 }), { labels: ['class 0', 'class 1', 'class 2'], source: 'generated' });
     await rejectsUserError(() => loadLabels({ modelPath: 'm.onnx' }), /no labels/, /--labels/);
