@@ -8,6 +8,7 @@ import { GraphIndex, indexGraph } from './graph';
 import { checkTensorPayload } from './tensor';
 import { sniffFileType } from './sniff';
 import { hasFloat16, widenFloat16 } from './widen';
+import { checkUpgradable } from './upgrade';
 
 /** IR and opset range this build understands (ORT 1.30 runs more; models are upgraded to opset 18 for differentiation). */
 export const IR_RANGE = [3, 10] as const;
@@ -98,6 +99,7 @@ export function modelFromBytes(bytes: Uint8Array, modelPath: string, opts: LoadO
   if (widenedFromFloat16) widenFloat16(proto);
   for (const t of proto.graph.initializer ?? []) checkTensorPayload(t, `${modelPath}: initializer '${t.name ?? ''}'`);
   refuseCustomOps(proto, modelPath);
+  checkUpgradable(proto.graph.node ?? [], opset, modelPath);
   const graph = indexGraph(proto.graph, modelPath);
   for (const n of graph.nodes) {
     for (const [k, v] of n.attrs) {
@@ -170,6 +172,11 @@ function pickImageInput(inputs: ValueInfoProto[], modelPath: string, anyRank: bo
       throw new UserError(`${modelPath}: input '${v.name}' ${shape}: dimension ${i} is ${d}, over the ${MAX_INPUT_SIDE} any image classifier takes`, 'export the model at the image size it was trained for');
     }
   });
+  // A fixed batch above 1 would make every map a mix of several images' gradients: refused
+  // rather than guessed (explaining item 0 would mean feeding copies and reading one row).
+  if (!anyRank && dims.length === 4 && typeof dims[0] === 'number' && dims[0] > 1) {
+    throw new UserError(`${modelPath}: input '${v.name}' ${shape} has a fixed batch of ${dims[0]}; maps explain one image at a time`, 're-export the model with batch 1 or a dynamic batch axis (torch.onnx.export dynamic_axes={"input": {0: "batch"}})');
+  }
   const values = dims.reduce<number>((a, d) => a * (typeof d === 'number' ? d : 1), 1);
   if (values > MAX_INPUT_VALUES) {
     throw new UserError(`${modelPath}: input '${v.name}' ${shape} is too large (${values.toExponential(2)} values, over ${MAX_INPUT_VALUES.toExponential(2)})`, 'export the model at the image size it was trained for');

@@ -90,6 +90,23 @@ function softmaxTo13(node: NodeProto, attrs: AttributeProto[], shapeOf: (t: stri
   ];
 }
 
+/**
+ * Refuses, at load and before any run, the few old-opset forms that have no later equivalent, so
+ * the user hears the node and the fix instead of a runtime error from the shape probe.
+ */
+export function checkUpgradable(nodes: NodeProto[], fromOpset: number, modelPath: string): void {
+  if (fromOpset >= 11) return;
+  for (const n of nodes) {
+    const op = n.op_type ?? '';
+    if (op === 'BatchNormalization' || op === 'Upsample' || op === 'Resize') {
+      try { upgradeBefore11(n, fromOpset, () => 'check', () => 'check'); } catch (e) {
+        if (e instanceof UserError) throw new UserError(`${modelPath}: ${e.message}`, e.hint);
+        throw e;
+      }
+    }
+  }
+}
+
 const utf8 = new TextEncoder();
 const INT64_LIMIT = 2 ** 62; // Slice ends of INT64_MAX mean "to the end"; any bound past the axis clamps the same (ONNX Slice spec)
 
