@@ -9,7 +9,7 @@ import { totalmem } from 'node:os';
 import {
   ENGINE_PROTOCOL_VERSION, EngineOp, EngineRequestOf, EngineResultOf, ErrorKind, FromEngine, ToEngine,
   checkEngineResult, checkFromEngine,
-} from '../core/engine/process-protocol';
+} from '../core/engine-process/protocol';
 
 export interface EngineLog {
   info(message: string): void;

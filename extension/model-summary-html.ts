@@ -4,7 +4,7 @@
  * an image to explain with this model. Built as one HTML string under the shared CSP; its few
  * lines of script only post two kinds of message, checked by checkEditorMessage. No vscode import.
  */
-import type { ModelSummary, LayerSummary } from '../core/engine/process-protocol';
+import type { ModelSummary, LayerSummary } from '../core/engine-process/protocol';
 import { escapeHtml as e, webviewCsp } from './webview-html';
 
 export type EditorState =

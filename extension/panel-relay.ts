@@ -6,7 +6,7 @@
  * No vscode import: the window's parts it needs come in as PanelUi.
  */
 import * as path from 'node:path';
-import type { EngineMap, ViewInfo } from '../core/engine/process-protocol';
+import type { EngineMap, ViewInfo } from '../core/engine-process/protocol';
 import type { EngineLike, EngineRequestError } from './engine-client';
 import {
   FromWebview, InitMessage, LayerInfo, MapData, PROTOCOL_VERSION, PanelImage, ToWebview, checkFromWebview, checkToWebview,

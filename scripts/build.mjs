@@ -8,7 +8,7 @@ const external = ['onnxruntime-node', 'sharp', 'vscode', 'playwright-core'];
 const node = { bundle: true, platform: 'node', target: 'node20', format: 'cjs', sourcemap: true, external, logLevel: 'warning' };
 const entries = [
   { entryPoints: ['core/cli/main.ts'], outfile: 'dist/cli.js', banner: { js: '#!/usr/bin/env node' } },
-  { entryPoints: ['core/engine/process-main.ts'], outfile: 'dist/engine-process.js' },
+  { entryPoints: ['core/engine-process/main.ts'], outfile: 'dist/engine-process.js' },
   { entryPoints: ['extension/extension.ts'], outfile: 'dist/extension.js' },
 ];
 await Promise.all(entries.filter((e) => existsSync(e.entryPoints[0])).map((e) => build({ ...node, ...e })));

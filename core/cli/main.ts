@@ -1,10 +1,11 @@
 /** The `factfoil` command (DESIGN §5). Exit 0 success, 2 user error (one line on stderr), 1 bug. */
-import { parseArgs } from 'node:util';
 import * as path from 'node:path';
-import { writeFile } from 'node:fs/promises';
 import { Engine } from '../engine/engine';
 import { UserError, isUserError } from '../errors';
-import { openModel, imageInput, tensorInput, softmax, ranked } from './context';
+import { openModel } from '../workflow/open-model';
+import { imageInput, tensorInput } from '../workflow/model-input';
+import { softmax, ranked } from '../workflow/prediction';
+import { CliArgs, USAGE, modelPath, parseCommandArgs, resolveLayer } from './args';
 import { gradientsAt, lossSeed } from '../methods/gradient';
 import { resolveClass } from '../io/labels';
 import { encodeNpy } from '../io/npy';
@@ -13,41 +14,12 @@ import { explainCommand } from './explain';
 import { checkCommand } from './check';
 import { noLayerReason } from '../model/layers';
 
-const USAGE = `usage:
-  factfoil layers  <model.onnx> [--json]
-  factfoil predict <image> --model <m.onnx> [--labels <file>] [--top <n>] [--json]
-  factfoil explain <image>... --model <m.onnx> [--map <kind>] [--fact <c>] [--foil <c>] [--contrast margin|loss]
-                   [--mismatch weighted|gradient] [--layer <tensor|index|last|stages|all>] [--estimate exact|probe:<K>[:<design>]]
-                   [--input <x.npy>] [--out <dir>] [--raw] [--json]
-  factfoil grad    --model <m.onnx> (--input <x.npy> | <image>) --layer <tensor> --target <class> [--loss logit|ce] --out <g.npy>
-  factfoil check   <image|folder>... --model <m.onnx> [--mask <m.png> | --box x,y,w,h | --masks <dir>]
-                   [--map evidence,contrast,detail,guided-evidence,gradient] [--layer <tensor|index>] [--fact <c>] [--foil <c>]
-                   [--tests sanity,faithfulness,truth,robustness] [--seed <n>] [--out <dir>] [--json]`;
-
-const OPTIONS = {
-  model: { type: 'string' }, labels: { type: 'string' }, top: { type: 'string' }, json: { type: 'boolean' },
-  map: { type: 'string' }, fact: { type: 'string' }, foil: { type: 'string' }, contrast: { type: 'string' },
-  mismatch: { type: 'string' }, layer: { type: 'string' }, estimate: { type: 'string' }, input: { type: 'string' },
-  out: { type: 'string' }, raw: { type: 'boolean' }, target: { type: 'string' }, loss: { type: 'string' }, help: { type: 'boolean', short: 'h' },
-  mask: { type: 'string' }, box: { type: 'string' }, masks: { type: 'string' }, tests: { type: 'string' }, seed: { type: 'string' },
-} as const;
-
-export type CliArgs = ReturnType<typeof parse>;
-
-function parse(argv: string[]) {
-  try {
-    return parseArgs({ args: argv, options: OPTIONS, allowPositionals: true, strict: true });
-  } catch (e) {
-    throw new UserError(`${(e as Error).message.split('\n')[0]}`, 'run `factfoil --help`');
-  }
-}
-
 export async function main(argv: string[]): Promise<number> {
   const engine = new Engine();
   try {
     const [command, ...rest] = argv;
     if (!command || command === '--help' || command === '-h') { process.stderr.write(USAGE + '\n'); return command ? 0 : 2; }
-    const args = parse(rest);
+    const args = parseCommandArgs(rest);
     if (command === 'layers') return await layersCommand(engine, args);
     if (command === 'predict') return await predictCommand(engine, args);
     if (command === 'explain') return await explainCommand(engine, args);
@@ -64,7 +36,7 @@ export async function main(argv: string[]): Promise<number> {
 }
 
 async function layersCommand(engine: Engine, args: CliArgs): Promise<number> {
-  const ctx = await openModel(engine, args.positionals[0] ?? args.values.model, args.values.labels);
+  const ctx = await openModel(engine, args.positionals[0] ?? modelPath(args), args.values.labels);
   if (!ctx.pm.layers.length) throw noLayerReason(ctx.pm.analysis, ctx.pm.scores.tensor, ctx.pm.layers, ctx.pm.model.path);
   const layers = ctx.pm.layers.map((l, index) => ({
     index, id: l.id, shape: l.shape, kind: l.kind, grid: l.grid, stage: l.isStage,
@@ -83,7 +55,7 @@ async function layersCommand(engine: Engine, args: CliArgs): Promise<number> {
 }
 
 async function predictCommand(engine: Engine, args: CliArgs): Promise<number> {
-  const ctx = await openModel(engine, args.values.model, args.values.labels);
+  const ctx = await openModel(engine, modelPath(args), args.values.labels);
   const file = args.positionals[0];
   if (!file && !args.values.input) throw new UserError('missing <image>');
   const input = args.values.input ? await tensorInput(ctx, args.values.input) : await imageInput(ctx, file);
@@ -97,7 +69,7 @@ async function predictCommand(engine: Engine, args: CliArgs): Promise<number> {
 }
 
 async function gradCommand(engine: Engine, args: CliArgs): Promise<number> {
-  const ctx = await openModel(engine, args.values.model, args.values.labels);
+  const ctx = await openModel(engine, modelPath(args), args.values.labels);
   const { layer, target, out } = args.values;
   if (!layer || target === undefined || !out) throw new UserError('grad needs --layer, --target and --out');
   const loss = (args.values.loss ?? 'logit') as 'logit' | 'ce';
@@ -112,23 +84,6 @@ async function gradCommand(engine: Engine, args: CliArgs): Promise<number> {
   await writeFileAtomic(path.resolve(out), encodeNpy(g.data, shape));
   process.stderr.write(`wrote ${out} [${shape.join(',')}]\n`);
   return 0;
-}
-
-/** --layer tensor|index|last|stages|all → layer ids. */
-export function resolveLayer(pm: import('../plan/prepared').PreparedModel, arg: string, allowInput = false): string[] {
-  const explainable = pm.layers.filter((l) => !l.blockedBy);
-  if (['all', 'stages', 'last'].includes(arg) && !explainable.length) throw noLayerReason(pm.analysis, pm.scores.tensor, pm.layers, pm.model.path);
-  if (arg === 'all') return explainable.map((l) => l.id);
-  if (arg === 'stages') {
-    const stages = explainable.filter((l) => l.isStage).map((l) => l.id);
-    if (!stages.length) throw new UserError(`no stage of ${pm.model.path} can be explained`, 'pick a layer with --layer (run `factfoil layers <model>` to list them)');
-    return stages;
-  }
-  if (arg === 'last') return explainable.slice(-1).map((l) => l.id);
-  if (allowInput && arg === pm.model.input.name) return [arg];
-  if (/^\d+$/.test(arg) && pm.layers[Number(arg)]) return [pm.layers[Number(arg)].id];
-  if (pm.layers.some((l) => l.id === arg)) return [arg];
-  throw new UserError(`unknown layer '${arg}' in ${pm.model.path}`, 'run `factfoil layers <model>` to list them');
 }
 
 if (require.main === module) {

@@ -21,7 +21,7 @@ import { computeGeometry } from '../../core/image/preprocess';
 import { displayRange } from '../../core/image/normalize';
 import { renderOverlayPng } from '../../core/image/overlay';
 import { colorizeOntoImage } from '../../webview/map-render';
-import { geometrySummary } from '../../core/engine/process-main';
+import { geometrySummary } from '../../core/engine-process/service';
 import { colorIndexFor, colormapTable } from '../../webview/colormap';
 import type { DecodedImage } from '../../core/image/decode';
 import { mulberry32 } from '../../core/metrics/random';

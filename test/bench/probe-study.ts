@@ -19,7 +19,8 @@ import { loadModel } from '../../core/model/load';
 import { PreparedModel } from '../../core/plan/prepared';
 import { readNpy } from '../../core/io/npy';
 import { pearson } from '../../core/metrics/correlation';
-import { imageInput, openModel } from '../../core/cli/context';
+import { openModel } from '../../core/workflow/open-model';
+import { imageInput } from '../../core/workflow/model-input';
 
 const root = path.resolve(__dirname, '..', '..');
 const args = process.argv.slice(2);

@@ -8,8 +8,8 @@ import { existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync } from 'node:f
 import { tmpdir } from 'node:os';
 import * as path from 'node:path';
 import { chromium, BrowserContext } from 'playwright-core';
-import { EngineService } from '../../core/engine/process-main';
-import type { ModelSummary } from '../../core/engine/process-protocol';
+import { EngineService } from '../../core/engine-process/service';
+import type { ModelSummary } from '../../core/engine-process/protocol';
 import { checkEditorMessage, modelSummaryHtml } from '../../extension/model-summary-html';
 import { FIXTURES } from '../helpers';
 

@@ -3,7 +3,7 @@
  * process, and every message the relay posts must pass the panel's own validator.
  */
 import { strict as assert } from 'node:assert';
-import type { EngineMap, EngineOp, EngineRequestOf, EngineResultOf, ViewInfo } from '../../core/engine/process-protocol';
+import type { EngineMap, EngineOp, EngineRequestOf, EngineResultOf, ViewInfo } from '../../core/engine-process/protocol';
 import { EngineLike, EngineRequestError, PendingRequest, RequestHandlers } from '../../extension/engine-client';
 import { PanelRelay, PanelUi, initMessage, savedMessage } from '../../extension/panel-relay';
 import { DEFAULT_SETTINGS, FactfoilSettings } from '../../extension/settings';

@@ -4,8 +4,8 @@
  * drive it, so what they prove holds for the real pipeline (the CLI runs the same calls).
  */
 import { Engine } from '../../core/engine/engine';
-import { openModel } from '../../core/cli/context';
-import { resolveLayer } from '../../core/cli/main';
+import { openModel } from '../../core/workflow/open-model';
+import { resolveLayer } from '../../core/cli/args';
 import { explainMaps, Estimate, Question } from '../../core/methods/maps';
 import { decodeImage } from '../../core/image/decode';
 import { preprocessImage, PreprocessSpec } from '../../core/image/preprocess';

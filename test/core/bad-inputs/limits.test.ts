@@ -6,7 +6,7 @@
 import { strict as assert } from 'node:assert';
 import { Engine } from '../../../core/engine/engine';
 import { seedChunkSize } from '../../../core/engine/budget';
-import { openModel } from '../../../core/cli/context';
+import { openModel } from '../../../core/workflow/open-model';
 import { explainMaps } from '../../../core/methods/maps';
 import { PreparedModel } from '../../../core/plan/prepared';
 import { rejectsUserError } from '../io/support';

@@ -6,7 +6,8 @@
 import { strict as assert } from 'node:assert';
 import * as path from 'node:path';
 import { Engine } from '../../../core/engine/engine';
-import { imageInput, openModel } from '../../../core/cli/context';
+import { openModel } from '../../../core/workflow/open-model';
+import { imageInput } from '../../../core/workflow/model-input';
 import { faithfulnessCheck } from '../../../core/trust/faithfulness';
 import { softmax, TrustSubject } from '../../../core/trust/subject';
 import { gaussianBlurInput } from '../../../core/metrics';

@@ -6,7 +6,8 @@
 import { strict as assert } from 'node:assert';
 import * as path from 'node:path';
 import { Engine } from '../../../core/engine/engine';
-import { imageInput, openModel, ModelContext } from '../../../core/cli/context';
+import { openModel, ModelContext } from '../../../core/workflow/open-model';
+import { imageInput } from '../../../core/workflow/model-input';
 import { defaultTrustKinds, regionFor, runTrustChecks } from '../../../core/trust/run';
 import type { PreparedModel } from '../../../core/plan/prepared';
 import { gradientSaliency } from '../../../core/trust/subject';

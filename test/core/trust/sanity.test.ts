@@ -7,7 +7,8 @@
 import { strict as assert } from 'node:assert';
 import * as path from 'node:path';
 import { Engine } from '../../../core/engine/engine';
-import { imageInput, openModel } from '../../../core/cli/context';
+import { openModel } from '../../../core/workflow/open-model';
+import { imageInput } from '../../../core/workflow/model-input';
 import { sanityCheck } from '../../../core/trust/sanity';
 import { TrustSubject } from '../../../core/trust/subject';
 import { SanityStep } from '../../../core/trust/report';

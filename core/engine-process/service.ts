@@ -1,16 +1,18 @@
 /**
  * The engine process (DESIGN §3): a Node process forked by the extension that owns every
  * onnxruntime session, so a model that exhausts memory or crashes the runtime takes only this
- * process down. It answers the requests of process-protocol.ts; `EngineService` holds the logic
+ * process down. It answers the requests of protocol.ts; `EngineService` holds the logic
  * and is usable in-process (tests), `serveOverIpc` connects it to the parent.
  */
 import { promises as fsp, statSync } from 'node:fs';
 import * as path from 'node:path';
-import { Engine } from './engine';
+import { Engine } from '../engine/engine';
 import { UserError, isUserError } from '../errors';
 import { explainMaps, Estimate, MapResult, Question } from '../methods/maps';
-import { openModel, imageInput, softmax, ranked, ModelContext, ModelInput } from '../cli/context';
-import { saveMap } from '../cli/explain';
+import { openModel, ModelContext } from '../workflow/open-model';
+import { imageInput, ModelInput } from '../workflow/model-input';
+import { softmax, ranked } from '../workflow/prediction';
+import { saveMap } from '../workflow/save-map';
 import { expectedLabelFromPath, loadLabels } from '../io/labels';
 import { layerShortName } from '../io/naming';
 import { readSidecar, writeSidecar, resolvePreprocessSpec, sidecarPath, Sidecar, SidecarPreprocess } from '../io/sidecar';
@@ -21,9 +23,9 @@ import { regionFor, runTrustChecks } from '../trust/run';
 import { findMask } from '../io/masks';
 import type { TrustReport } from '../trust/report';
 import {
-  ENGINE_PROTOCOL_VERSION, EngineMap, EngineOp, EngineRequest, EngineRequestOf, EngineResultOf, ErrorKind, FromEngine,
+  ENGINE_PROTOCOL_VERSION, EngineMap, EngineRequest, EngineRequestOf, EngineResultOf, ErrorKind, FromEngine,
   ImageGeometrySummary, ModelSummary, PanelSettings, ViewInfo, checkToEngine,
-} from './process-protocol';
+} from './protocol';
 
 /** Formats a browser shows in an <img>; others get a PNG preview from us. */
 const BROWSER_FORMATS = new Set(['png', 'jpeg', 'webp', 'gif', 'avif']);
@@ -320,30 +322,3 @@ export function serveOverIpc(service: EngineService, send: (m: FromEngine) => vo
     ).finally(() => running.delete(id));
   });
 }
-
-function argValue(name: string): string | undefined {
-  const hit = process.argv.find((a) => a.startsWith(`--${name}=`));
-  return hit?.slice(name.length + 3);
-}
-
-function main(): void {
-  if (!process.send) {
-    process.stderr.write('factfoil engine: start me with child_process.fork (I talk over the IPC channel)\n');
-    process.exit(2);
-  }
-  const threads = Number(argValue('threads') ?? 0);
-  const service = new EngineService({ threads: Number.isInteger(threads) && threads >= 0 ? threads : 0 }, process.env.FACTFOIL_ENGINE_TEST_HOOKS === '1');
-  const send = (m: FromEngine) => { if (process.connected) process.send!(m); };
-  process.on('uncaughtException', (e) => {
-    process.stderr.write(`factfoil engine: internal error: ${e.stack ?? e}\n`);
-    process.exit(70);
-  });
-  // The extension went away: nothing left to serve.
-  process.on('disconnect', () => { void service.dispose().finally(() => process.exit(0)); });
-  serveOverIpc(service, send, (l) => process.on('message', l));
-  send({ v: ENGINE_PROTOCOL_VERSION, type: 'ready', pid: process.pid });
-}
-
-export type { EngineOp };
-
-if (require.main === module) main();

@@ -2,8 +2,8 @@
 import { strict as assert } from 'node:assert';
 import {
   ENGINE_PROTOCOL_VERSION, EngineMessageError, checkEngineResult, checkFromEngine, checkToEngine,
-} from '../../../core/engine/process-protocol';
-import { geometrySummary, panelSettingsOf, sidecarWithSettings } from '../../../core/engine/process-main';
+} from '../../../core/engine-process/protocol';
+import { geometrySummary, panelSettingsOf, sidecarWithSettings } from '../../../core/engine-process/service';
 import { computeGeometry, inputToOriginal, PREPROCESS_PRESETS } from '../../../core/image/preprocess';
 
 const v = ENGINE_PROTOCOL_VERSION;

@@ -12,7 +12,8 @@ import { tmpdir } from 'node:os';
 import * as path from 'node:path';
 import { EngineClient, EngineRequestError, EngineExit } from '../../../extension/engine-client';
 import { Engine } from '../../../core/engine/engine';
-import { openModel, imageInput } from '../../../core/cli/context';
+import { openModel } from '../../../core/workflow/open-model';
+import { imageInput } from '../../../core/workflow/model-input';
 import { explainMaps } from '../../../core/methods/maps';
 import { FIXTURES, relL2 } from '../../helpers';
 import { checkToWebview } from '../../../webview/protocol';
@@ -58,6 +59,14 @@ describe('engine process (forked, demo model)', function () {
     assert.deepEqual(s.layers.filter((l) => l.stage).map((l) => l.id), ['stage1', 'stage2', 'stage3', 'stage4']);
     assert.ok(s.layers.every((l) => l.explainable));
     assert.equal(s.settings.preprocessing.width, 112);
+  });
+
+  it('starts as the engine only: the CLI entry does not run inside its bundle', () => {
+    // A CLI bundled into the engine once parsed the engine's own arguments and logged
+    // "unknown command '--threads=0'" at every start.
+    const text = logs.join('\n');
+    assert.ok(/engine process \d+ ready/.test(text), text);
+    assert.ok(!/unknown command|usage:/.test(text), text);
   });
 
   it('answers a contrast request with the same maps the in-process engine computes', async () => {
