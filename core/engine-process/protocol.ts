@@ -68,7 +68,21 @@ export interface ModelSummary {
   /** Grayscale models feed one channel; the panel shows three equal values for it. */
   gray: boolean;
   settings: PanelSettings;
+  /** Whether preprocessing and labels were given or guessed, so every view can say which. */
+  origin: ModelOriginSummary;
   layers: LayerSummary[];
+}
+
+/**
+ * preprocessing 'guessed': the model's settings file has no preprocess, the spec follows the input
+ * shape. labels 'generated': no labels were found, they read `class 0` … `class N−1`; else where
+ * they came from ('file' given explicitly, 'sidecar', 'beside' the model, ONNX 'metadata').
+ */
+export interface ModelOriginSummary {
+  preprocessing: 'sidecar' | 'guessed';
+  labels: 'file' | 'sidecar' | 'beside' | 'metadata' | 'generated';
+  /** The labels file or the metadata key they were read from. */
+  labelsFrom?: string;
 }
 
 /** image_px = offset + model_px · scale (the panel's ImageGeometry). */
@@ -396,6 +410,11 @@ function checkSummary(v: unknown, path: string): ModelSummary {
   if (!Array.isArray(o.layers)) throw new EngineMessageError(`${path}.layers`, 'expected an array');
   object(o.scores, `${path}.scores`);
   checkPanelSettings(o.settings, `${path}.settings`);
+  const origin = object(o.origin, `${path}.origin`);
+  onlyFields(origin, ['preprocessing', 'labels', 'labelsFrom'], `${path}.origin`);
+  oneOf(origin.preprocessing, `${path}.origin.preprocessing`, ['sidecar', 'guessed'] as const);
+  oneOf(origin.labels, `${path}.origin.labels`, ['file', 'sidecar', 'beside', 'metadata', 'generated'] as const);
+  optional(origin.labelsFrom, (f) => string(f, `${path}.origin.labelsFrom`));
   return o as unknown as ModelSummary;
 }
 

@@ -152,6 +152,7 @@ export class EngineService {
       ...(sidecar ? { sidecar: file } : {}),
       gray: ctx.spec.channels === 'GRAY',
       settings: panelSettingsOf(ctx.spec, sidecar),
+      origin: ctx.origin,
       layers: pm.layers.map((l, index) => ({
         index, id: l.id, short: layerShortName(l.id), shape: l.shape, kind: l.kind, grid: l.grid,
         stage: l.isStage, explainable: !l.blockedBy, ...(l.blockedBy ? { blockedBy: l.blockedBy } : {}),

@@ -23,6 +23,7 @@ function view(id: string): ViewInfo {
       input: { name: 'image', dims: [1, 3, 4, 4], declared: [1, 3, 4, 4] },
       scores: { tensor: 'logits', source: 'output', numClasses: 8 }, classes: LABELS, gray: false,
       settings: { preprocessing: { width: 4, height: 4, resize: 'stretch', channels: 'RGB', layout: 'NCHW', scale: 1 / 255, mean: [0, 0, 0], std: [1, 1, 1] }, labelsFile: 'labels.txt' },
+      origin: { preprocessing: 'sidecar', labels: 'sidecar', labelsFrom: '/w/labels.txt' },
       layers: [
         { index: 0, id: 'a', short: 'a', shape: [2, 2, 2], kind: 'spatial', grid: [2, 2], stage: false, explainable: false, blockedBy: { opType: 'TopK', node: 'n1' } },
         { index: 1, id: 'stage1', short: 'stage1', shape: [2, 2, 3], kind: 'spatial', grid: [2, 3], stage: true, explainable: true },

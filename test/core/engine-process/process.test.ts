@@ -59,6 +59,22 @@ describe('engine process (forked, demo model)', function () {
     assert.deepEqual(s.layers.filter((l) => l.stage).map((l) => l.id), ['stage1', 'stage2', 'stage3', 'stage4']);
     assert.ok(s.layers.every((l) => l.explainable));
     assert.equal(s.settings.preprocessing.width, 112);
+    assert.deepEqual(s.origin, { preprocessing: 'sidecar', labels: 'sidecar', labelsFrom: path.join(FIXTURES, 'parts', 'labels.txt') });
+  });
+
+  it('says when preprocessing is guessed and where labels came from: beside the model, or generated', async () => {
+    // The 1000-class fixture has labels.txt beside it and no settings file.
+    const catalog = await client.request({ op: 'openModel', model: path.join(FIXTURES, 'catalog', 'catalog-sorter.onnx') }).result;
+    assert.deepEqual(catalog.origin, { preprocessing: 'guessed', labels: 'beside', labelsFrom: path.join(FIXTURES, 'catalog', 'labels.txt') });
+    assert.equal(catalog.classes.length, 1000);
+    // The demo model alone in a folder: nothing to read labels from.
+    const alone = mkdtempSync(path.join(tmpdir(), 'ff-alone-'));
+    try {
+      copyFileSync(MODEL, path.join(alone, 'bare.onnx'));
+      const bare = await client.request({ op: 'openModel', model: path.join(alone, 'bare.onnx') }).result;
+      assert.deepEqual(bare.origin, { preprocessing: 'guessed', labels: 'generated' });
+      assert.equal(bare.classes[7], 'class 7');
+    } finally { rmSync(alone, { recursive: true, force: true }); }
   });
 
   it('starts as the engine only: the CLI entry does not run inside its bundle', () => {

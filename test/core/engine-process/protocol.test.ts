@@ -53,6 +53,17 @@ describe('engine process protocol', () => {
     rejects(() => checkFromEngine({ v, type: 'shout', id: 2 }), /message\.type/);
     rejects(() => checkEngineResult('maps', { maps: [{ mapId: 'm', kind: 'contrast', layer: 'l', fact: 0, width: 2, height: 2, values: 'AAAA', rawWidth: 1, rawHeight: 1, raw: 'AAAAAA==', range: { lo: 0, hi: 1 } }] }), /values: base64 of 4 float32/);
     rejects(() => checkEngineResult('save', { files: [3] }), /files\[0\]/);
+    const summary = {
+      path: '/m.onnx', name: 'm.onnx', sha256: 'ab', input: { name: 'x', dims: [1, 3, 4, 4], declared: [1, 3, 4, 4] },
+      scores: { tensor: 'y', source: 'output', numClasses: 2 }, classes: ['a', 'b'], gray: false, layers: [],
+      settings: { preprocessing: { width: 4, height: 4, resize: 'stretch', channels: 'RGB', layout: 'NCHW', scale: 1, mean: [0, 0, 0], std: [1, 1, 1] } },
+      origin: { preprocessing: 'guessed', labels: 'beside', labelsFrom: '/labels.txt' },
+    };
+    assert.deepEqual(checkEngineResult('openModel', summary), summary);
+    rejects(() => checkEngineResult('openModel', { ...summary, origin: undefined }), /summary|origin/);
+    rejects(() => checkEngineResult('openModel', { ...summary, origin: { preprocessing: 'assumed', labels: 'beside' } }), /origin\.preprocessing/);
+    rejects(() => checkEngineResult('openModel', { ...summary, origin: { preprocessing: 'guessed', labels: 'nearby' } }), /origin\.labels/);
+    rejects(() => checkEngineResult('openModel', { ...summary, origin: { preprocessing: 'guessed', labels: 'file', labelsFrom: '' } }), /origin\.labelsFrom/);
   });
 
   it('turns core geometry into the panel\'s image_px = offset + model_px · scale, for every resize mode', () => {
