@@ -64,9 +64,11 @@ export function activate(context: vscode.ExtensionContext): void {
     extensionUri: context.extensionUri, engine, log, settings,
     saveFolder: (image) => saveFolderFor(image, settings(), workspaceFolderOf(image)),
   });
+  // Remembered only once the model has loaded on the image: a model that fails is never "used last".
   const explain = (model: string, image: string) => {
-    void pairings.remember(image, model);
-    panels!.show(model, image);
+    panels!.show(model, image, (ok) => {
+      void (ok ? pairings.remember(image, model) : pairings.forget(image, model));
+    });
   };
 
   /** Which model explains this image: the configured default for its folder, else the user's pick. */
@@ -74,6 +76,12 @@ export function activate(context: vscode.ExtensionContext): void {
     const configured = defaultModelFor(image, settings(), workspaceFolderOf(image));
     if (configured && (await exists(configured))) return configured;
     if (configured) log.warn(`factfoil.defaultModels names ${configured} for ${path.dirname(image)}, which does not exist; asking instead`);
+    // Asked once per image folder (README): the folder's remembered model is used without asking.
+    const paired = pairings.modelFor(image);
+    if (paired && (await exists(paired))) {
+      log.info(`explain ${image}: using ${paired}, remembered for this folder (Factfoil: Forget Model Choices for This Workspace asks again)`);
+      return paired;
+    }
     // The pick shows at once, busy, while the workspace is searched (large workspaces take a while).
     type Item = vscode.QuickPickItem & { path?: string };
     const qp = vscode.window.createQuickPick<Item>();

@@ -42,6 +42,16 @@ export class ModelPairings {
     await this.store.update(RECENT_KEY, [abs, ...this.recent().filter((m) => m !== abs)].slice(0, RECENT_MAX));
   }
 
+  /** A model that failed to load is neither paired with this image's folder nor recent any more. */
+  async forget(image: string, model: string): Promise<void> {
+    const abs = path.resolve(model);
+    const p = this.pairings();
+    const dir = path.dirname(path.resolve(image));
+    if (p[dir] === abs) { delete p[dir]; await this.store.update(PAIRINGS_KEY, p); }
+    const recent = this.recent();
+    if (recent.includes(abs)) await this.store.update(RECENT_KEY, recent.filter((m) => m !== abs));
+  }
+
   async forgetAll(): Promise<void> {
     await this.store.update(PAIRINGS_KEY, undefined);
     await this.store.update(RECENT_KEY, undefined);

@@ -26,6 +26,20 @@ describe('model pairing and pick order', () => {
     assert.equal(p.modelFor('/ws/imgs/a.png'), undefined);
   });
 
+  it('forgets a model that failed to load: not paired with that folder, not recent', async () => {
+    const p = new ModelPairings(memory());
+    await p.remember('/ws/imgs/a.png', '/ws/good.onnx');
+    await p.remember('/ws/other/b.png', '/ws/bad.onnx');
+    await p.forget('/ws/imgs/a.png', '/ws/bad.onnx');
+    assert.equal(p.modelFor('/ws/imgs/a.png'), '/ws/good.onnx', "another folder's pairing stays");
+    await p.forget('/ws/other/b.png', '/ws/bad.onnx');
+    assert.equal(p.modelFor('/ws/other/b.png'), undefined);
+    assert.deepEqual(p.recent(), ['/ws/good.onnx']);
+    const items = orderModelCandidates([{ path: '/ws/bad.onnx', mtimeMs: 2 }, { path: '/ws/good.onnx', mtimeMs: 1 }], { paired: p.modelFor('/ws/other/b.png'), recent: p.recent(), now: 3 });
+    assert.equal(items[0].path, '/ws/good.onnx', 'the failed model is not offered first');
+    assert.doesNotMatch(items[1].detail, /used/);
+  });
+
   it('ignores junk in the store', () => {
     const store = memory();
     store.data.set('factfoil.pairings', ['not', 'a', 'map']);
