@@ -28,20 +28,28 @@ export class ModelSummaryEditor implements vscode.CustomReadonlyEditorProvider {
     const model = doc.uri.fsPath;
     const webview = panel.webview;
     webview.options = { enableScripts: true, enableForms: false, localResourceRoots: [vscode.Uri.joinPath(this.extensionUri, 'dist')] };
-    const render = (state: EditorState) => { webview.html = modelSummaryHtml(state, { cspSource: webview.cspSource, nonce: makeNonce() }); };
+    // A closed editor's webview throws on every use: nothing renders into it once it is gone
+    // (a summary still loading when the tab closed logged "Webview is disposed" with a stack).
+    let disposed = false;
+    const render = (state: EditorState) => {
+      if (!disposed) webview.html = modelSummaryHtml(state, { cspSource: webview.cspSource, nonce: makeNonce() });
+    };
     let loading = 0;
     const load = async () => {
       if (!vscode.workspace.isTrusted) { render({ kind: 'untrusted' }); return; }
       const mine = ++loading;
       render({ kind: 'loading' });
+      let summary;
       try {
-        const summary = await this.engine.request({ op: 'openModel', model }).result;
-        if (mine === loading) render({ kind: 'ready', summary });
+        summary = await this.engine.request({ op: 'openModel', model }).result;
       } catch (e) {
         const err = e as EngineRequestError;
+        if (disposed) return;
         if (err?.kind === 'internal' || err?.kind === undefined) this.log.error(`model summary of ${model} failed: ${err?.stack ?? e}`);
         if (mine === loading) render({ kind: 'failed', message: String(err?.message ?? e), ...(err?.hint ? { hint: err.hint } : {}) });
+        return;
       }
+      if (mine === loading) render({ kind: 'ready', summary });
     };
     const subs: vscode.Disposable[] = [];
     // The model or its settings file changed on disk: show the new summary.
@@ -68,7 +76,7 @@ export class ModelSummaryEditor implements vscode.CustomReadonlyEditorProvider {
       }
       this.explain(model, uri.fsPath);
     }));
-    panel.onDidDispose(() => subs.forEach((s) => s.dispose()));
+    panel.onDidDispose(() => { disposed = true; subs.forEach((s) => s.dispose()); });
     await load();
   }
 }
