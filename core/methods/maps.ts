@@ -167,7 +167,7 @@ async function mismatchMaps(engine: Engine, pm: PreparedModel, input: Float32Arr
   const accDims = new Map<string, number[]>();
   for (const l of layers) {
     const info = pm.layers.find((x) => x.id === l)!;
-    const dims = info.kind === 'spatial' ? [1, ...info.shape] : [1, info.shape[1], ...info.grid];
+    const dims = info.kind === 'spatial' ? [1, ...info.shape] : [1, info.shape[info.shape.length - 1], ...info.grid];
     accDims.set(l, dims);
     acc.set(l, new Float32Array(dims.reduce((a, b) => a * b, 1)));
   }

@@ -164,9 +164,14 @@ export function isNhwc(inputDims: number[]): boolean {
 function toGrid(b: GraphBuilder, layer: LayerInfo, id: string, g: string | undefined): { a: string; g?: string } {
   if (layer.kind === 'spatial') return { a: id, g };
   const [h, w] = layer.grid;
-  const D = layer.shape[1];
+  const D = layer.shape[layer.shape.length - 1];
   const drop = layer.classToken ? 1 : 0;
   const big = 2 ** 53;
+  // Tokens on a channels-last grid [1,H,W,C] (windowed transformers) are first read as [1,H·W,C].
+  if (layer.shape.length === 3) {
+    id = b.op1('Reshape', [id, b.constI64([1, h * w, D])]);
+    if (g) g = b.op1('Reshape', [g, b.constI64([-1, 1, h * w, D])]);
+  }
   const a0 = drop ? b.op1('Slice', [id, b.constI64([1]), b.constI64([big]), b.constI64([1])]) : id;
   const a = b.op1('Reshape', [b.op1('Transpose', [a0], { perm: { ints: [0, 2, 1] } }), b.constI64([1, D, h, w])]);
   if (!g) return { a };
@@ -231,7 +236,7 @@ function assemble(pm: PreparedModel, b: GraphBuilder, outputs: string[], forward
     f(SEED_BASE, ['K', R]),
     f(SEED_COEF, ['K', 1]),
     ...(rankSeeds ? [f(SEED_RANK, ['K', Math.min(2, R)])] : []),
-    ...[...accInputs].map(([layer, n]) => f(n, pm.analysis.shape(layer).length === 4 ? [1, ...pm.analysis.shape(layer).slice(1)] : gridShape(pm, layer))),
+    ...[...accInputs].map(([layer, n]) => f(n, pm.layers.find((l) => l.id === layer)?.kind === 'spatial' ? [1, ...pm.analysis.shape(layer).slice(1)] : gridShape(pm, layer))),
     ...(accScale ? [f(accScale, [])] : []),
     ...(sweepFrom ? [{ name: sweepFrom, type: { tensor_type: { elem_type: TensorType.INT64, shape: { dim: [{ dim_value: 1 }] } } } }] : []),
   ];
@@ -253,5 +258,5 @@ function assemble(pm: PreparedModel, b: GraphBuilder, outputs: string[], forward
 
 function gridShape(pm: PreparedModel, layer: string): number[] {
   const l = pm.layers.find((x) => x.id === layer)!;
-  return [1, l.shape[1], ...l.grid];
+  return [1, l.shape[l.shape.length - 1], ...l.grid];
 }

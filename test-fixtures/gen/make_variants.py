@@ -24,6 +24,7 @@ import torch.nn.functional as F
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 from common import FIXTURES_ROOT, rel_l2, rng_for, save_json, save_npy, torch_seed_for  # noqa: E402
 from make_arch import NUM_CLASSES, Capture, randomise  # noqa: E402
+from make_variants_windowed import make_windowed  # noqa: E402
 
 OUT = os.path.join(FIXTURES_ROOT, "variants")
 S = 16
@@ -387,6 +388,8 @@ def main():
                      "note": "int8 QDQ: per-channel int8 Conv weights and QuantizeLinear/DequantizeLinear on four activations; "
                              "reference: the same quantized net in PyTorch float64 with straight-through gradients", **own})
     print(f"variants/int8_qdq: opset 13 ops {' '.join(ops)}")
+
+    variants += make_windowed(OUT)
 
     save_json(os.path.join(OUT, "refs.json"), {
         "input": "input.npy", "input_shape": [1, 3, S, S], "scores": "logits", "num_classes": NUM_CLASSES,
