@@ -4,6 +4,7 @@
  * an image to explain with this model. Built as one HTML string under the shared CSP; its few
  * lines of script only post two kinds of message, checked by checkEditorMessage. No vscode import.
  */
+import * as path from 'node:path';
 import type { ModelSummary, LayerSummary } from '../core/engine-process/protocol';
 import { escapeHtml as e, webviewCsp } from './webview-html';
 
@@ -45,7 +46,16 @@ button:focus-visible { outline: 1px solid var(--vscode-focusBorder, #0078d4); ou
 .drop.is-over { border-color: var(--vscode-focusBorder, #0078d4); background: var(--vscode-list-hoverBackground, rgba(0,0,0,.05)); }
 .classes { display: flex; flex-wrap: wrap; gap: 6px; padding: 0; margin: 0; list-style: none; }
 .classes li { border: 1px solid var(--vscode-panel-border, #ccc); border-radius: 10px; padding: 1px 9px; }
-.classes .ix { color: var(--vscode-descriptionForeground, #666); margin-right: 4px; font-variant-numeric: tabular-nums; }
+.class-list { list-style: none; margin: 6px 0 0; max-height: 18em; overflow-y: auto; display: grid; grid-template-columns: repeat(auto-fill, minmax(16em, 1fr));
+  gap: 1px 12px; align-content: start; border: 1px solid var(--vscode-panel-border, #ccc); border-radius: 3px; padding: 4px 8px; }
+.class-list li { overflow-wrap: anywhere; }
+.class-list li[hidden] { display: none; }
+.class-find { display: flex; gap: 10px; align-items: center; }
+input[type=search] { font: inherit; color: var(--vscode-input-foreground, inherit); background: var(--vscode-input-background, transparent);
+  border: 1px solid var(--vscode-input-border, #999); padding: 3px 6px; min-width: 24em; }
+input[type=search]:focus-visible { outline: 1px solid var(--vscode-focusBorder, #0078d4); outline-offset: -1px; }
+.guess { color: var(--vscode-editorWarning-foreground, #9a6700); font-family: var(--vscode-font-family, system-ui, sans-serif); word-break: normal; overflow-wrap: anywhere; }
+.classes .ix, .class-list .ix { color: var(--vscode-descriptionForeground, #666); margin-right: 4px; font-variant-numeric: tabular-nums; }
 table { border-collapse: collapse; width: 100%; }
 th, td { text-align: left; padding: 3px 10px 3px 0; border-bottom: 1px solid var(--vscode-panel-border, #ddd); vertical-align: top; }
 th { font-weight: 600; color: var(--vscode-descriptionForeground, #666); }
@@ -69,6 +79,43 @@ function preprocessingText(s: ModelSummary): string {
   return `${p.width}×${p.height} ${p.resize}, ${ch} ${p.layout}, ×${+p.scale.toPrecision(4)}, mean ${fmt(s.gray ? [p.mean[0]] : p.mean)}, std ${fmt(s.gray ? [p.std[0]] : p.std)}`;
 }
 
+/** More labels than this read as a searchable list instead of chips (a screenful; common practice, no source). */
+export const CLASS_CHIPS_MAX = 60;
+
+function settingsFileName(s: ModelSummary): string {
+  return s.sidecar ? path.basename(s.sidecar) : `${path.basename(s.path, path.extname(s.path))}.factfoil.json`;
+}
+
+/** Said beside the preprocessing when it was not given: the numbers may not be the training ones. */
+function preprocessingOrigin(s: ModelSummary): string {
+  if (s.origin.preprocessing === 'sidecar') return '';
+  return `<br><span class="guess" data-origin="preprocessing-guessed">⚠ preprocessing guessed from the input shape: check it against how the model was trained, `
+    + `and set it in the panel's Preprocessing and labels drawer (it writes ${e(settingsFileName(s))} beside the model)</span>`;
+}
+
+/** Where the labels came from, or that there are none. */
+function labelsOrigin(s: ModelSummary): string {
+  const o = s.origin;
+  const from = o.labelsFrom ?? '';
+  switch (o.labels) {
+    case 'file': return `from ${e(from)}`;
+    case 'sidecar': return from.endsWith('.factfoil.json') ? `listed in ${e(path.basename(from))}` : `from ${e(path.basename(from))}, named in ${e(settingsFileName(s))}`;
+    case 'beside': return `from ${e(path.basename(from))} beside the model`;
+    case 'metadata': return `from the model's metadata ("${e(from)}")`;
+    case 'generated': return `<span class="guess" data-origin="labels-generated">⚠ class 0…${s.scores.numClasses - 1}: no labels file found. `
+      + `Put labels.txt (one label per line, in score order) beside the model, or choose a labels file in the panel's Preprocessing and labels drawer</span>`;
+  }
+}
+
+function classList(s: ModelSummary): string {
+  if (s.classes.length <= CLASS_CHIPS_MAX) {
+    return `<ol class="classes" start="0">${s.classes.map((c, i) => `<li><span class="ix">${i}</span>${e(c)}</li>`).join('')}</ol>`;
+  }
+  return `<div class="class-find"><input type="search" id="class-filter" placeholder="Filter ${s.classes.length} classes by name or number" aria-label="Filter classes" aria-controls="class-list">`
+    + `<span class="note" id="class-count" role="status">${s.classes.length} of ${s.classes.length}</span></div>`
+    + `<ol class="class-list" id="class-list" start="0">${s.classes.map((c, i) => `<li data-ix="${i}"><span class="ix">${i}</span>${e(c)}</li>`).join('')}</ol>`;
+}
+
 function layerRow(l: LayerSummary): string {
   const why = l.blockedBy
     ? `<span class="no">not explainable: ${e(l.blockedBy.opType)} node <code>${e(l.blockedBy.node)}</code> on the way to the scores has no gradient rule</span>`
@@ -90,7 +137,7 @@ function readyBody(s: ModelSummary): string {
 <h2>Input</h2>
 <dl class="grid">
   <dt>tensor</dt><dd>${e(s.input.name)} [${s.input.declared.map((d) => e(String(d))).join(', ')}]${s.input.declared.join() !== s.input.dims.join() ? ` → run as [${s.input.dims.join(', ')}]` : ''}</dd>
-  <dt>preprocessing</dt><dd>${e(preprocessingText(s))}</dd>
+  <dt>preprocessing</dt><dd>${e(preprocessingText(s))}${preprocessingOrigin(s)}</dd>
   <dt>settings file</dt><dd>${s.sidecar ? e(s.sidecar) : 'none (defaults from the input shape; the panel writes one when you change them)'}</dd>
   <dt>sha256</dt><dd>${e(s.sha256)}</dd>
 </dl>
@@ -99,9 +146,10 @@ function readyBody(s: ModelSummary): string {
   <dt>tensor</dt><dd>${e(s.scores.tensor)}</dd>
   <dt>taken from</dt><dd>${e(scoresFrom)}</dd>
   <dt>classes</dt><dd>${s.scores.numClasses}</dd>
+  <dt>labels</dt><dd>${labelsOrigin(s)}</dd>
 </dl>
 <h2>Classes</h2>
-<ol class="classes" start="0">${s.classes.map((c, i) => `<li><span class="ix">${i}</span>${e(c)}</li>`).join('')}</ol>
+${classList(s)}
 <h2>Stages</h2>
 <p>${stages.length ? stages.map((l) => `<code>${e(l.short)}</code>`).join(' → ') : 'none found: every layer can still be explained on its own'}</p>
 <p class="note">Stages are the layers every path from the input to the scores passes through; the panel steps through them.</p>
@@ -128,6 +176,21 @@ const pick = document.getElementById('pick');
 if (pick) pick.addEventListener('click', () => vscode.postMessage({ type: 'pickImage' }));
 const trust = document.getElementById('trust');
 if (trust) trust.addEventListener('click', () => vscode.postMessage({ type: 'trustWorkspace' }));
+const filter = document.getElementById('class-filter');
+if (filter) {
+  const items = Array.from(document.querySelectorAll('#class-list li'));
+  const count = document.getElementById('class-count');
+  filter.addEventListener('input', () => {
+    const q = filter.value.trim().toLowerCase();
+    let shown = 0;
+    for (const li of items) {
+      const hit = !q || li.textContent.slice(li.dataset.ix.length).toLowerCase().includes(q) || li.dataset.ix === q;
+      li.hidden = !hit;
+      if (hit) shown++;
+    }
+    count.textContent = shown + ' of ' + items.length;
+  });
+}
 const drop = document.getElementById('drop');
 if (drop) {
   const over = (on) => drop.classList.toggle('is-over', on);

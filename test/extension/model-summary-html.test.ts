@@ -4,7 +4,7 @@
  * screenshots in light and dark go to test-output/screenshots/model-summary-*.png.
  */
 import { strict as assert } from 'node:assert';
-import { existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { copyFileSync, existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import * as path from 'node:path';
 import { chromium, BrowserContext } from 'playwright-core';
@@ -26,12 +26,21 @@ const noContext = { signal: new AbortController().signal, progress: () => undefi
 describe('model summary page (custom editor for .onnx)', function () {
   this.timeout(120_000);
   let summary: ModelSummary;
+  let catalog: ModelSummary;
+  let bare: ModelSummary;
   let context: BrowserContext;
   let profile: string;
 
   before(async () => {
     const service = new EngineService();
     summary = (await service.handle({ op: 'openModel', model: path.join(FIXTURES, 'parts', 'parts-sorter.onnx') }, noContext)) as ModelSummary;
+    // 1000 classes, labels.txt beside it, no settings file: labels found, preprocessing guessed.
+    catalog = (await service.handle({ op: 'openModel', model: path.join(FIXTURES, 'catalog', 'catalog-sorter.onnx') }, noContext)) as ModelSummary;
+    // The demo model alone in a folder: no labels anywhere.
+    const alone = mkdtempSync(path.join(tmpdir(), 'ff-summary-bare-'));
+    copyFileSync(path.join(FIXTURES, 'parts', 'parts-sorter.onnx'), path.join(alone, 'bare.onnx'));
+    bare = (await service.handle({ op: 'openModel', model: path.join(alone, 'bare.onnx') }, noContext)) as ModelSummary;
+    rmSync(alone, { recursive: true, force: true });
     await service.dispose();
     // One layer marked as blocked, to show how a layer without a gradient rule reads.
     summary = { ...summary, layers: summary.layers.map((l, i) => (i === 0 ? { ...l, explainable: false, blockedBy: { opType: 'NonMaxSuppression', node: 'nms_0' } } : l)) };
@@ -87,6 +96,51 @@ describe('model summary page (custom editor for .onnx)', function () {
       await page.screenshot({ path: path.join(SHOTS, `model-summary-${theme.slice(7)}.png`), fullPage: true });
       await page.close();
     }
+  });
+
+  it('says where labels came from, and flags guessed preprocessing and missing labels with what to do', async () => {
+    const ready = (sm: ModelSummary) => modelSummaryHtml({ kind: 'ready', summary: sm }, { cspSource: CSP_SOURCE, nonce: 'N5' });
+    const given = await open('vscode-light', ready(summary));
+    assert.match(await given.page.locator('main').innerText(), /labels\s+from labels\.txt, named in parts-sorter\.factfoil\.json/);
+    assert.equal(await given.page.locator('[data-origin]').count(), 0, 'nothing flagged when both are given');
+    await given.page.close();
+    const guessed = await open('vscode-light', ready(bare));
+    const text = await guessed.page.locator('main').innerText();
+    assert.match(text, /preprocessing guessed from the input shape: .*Preprocessing and labels drawer \(it writes bare\.factfoil\.json beside the model\)/);
+    assert.match(text, /class 0…7: no labels file found\. Put labels\.txt .* beside the model/);
+    assert.ok(await guessed.page.locator('[data-origin="labels-generated"]').isVisible());
+    await guessed.page.close();
+  });
+
+  it('lists 1000 classes as one scrolling list to filter by name or number, not 1000 chips', async () => {
+    assert.equal(catalog.classes.length, 1000);
+    const { page, errors, violations } = await open('vscode-dark', modelSummaryHtml({ kind: 'ready', summary: catalog }, { cspSource: CSP_SOURCE, nonce: 'N6' }));
+    const text = await page.locator('main').innerText();
+    assert.match(text, /labels\s+from labels\.txt beside the model/);
+    assert.match(text, /preprocessing guessed from the input shape/);
+    assert.equal(await page.locator('.classes li').count(), 0, 'no chips');
+    const list = page.locator('#class-list');
+    const box = await list.boundingBox();
+    assert.ok(box && box.height < 400, `the list scrolls in a bounded box (${box?.height} px)`);
+    await page.screenshot({ path: path.join(SHOTS, 'model-summary-1000-classes.png'), fullPage: false });
+    const visible = () => page.locator('#class-list li:not([hidden])').count();
+    assert.equal(await visible(), 1000);
+    const name = catalog.classes[417];
+    await page.fill('#class-filter', name);
+    const hits = catalog.classes.filter((c) => c.toLowerCase().includes(name.toLowerCase())).length;
+    assert.equal(await visible(), hits);
+    await page.locator('#class-list li[data-ix="417"]').scrollIntoViewIfNeeded();
+    assert.ok(await page.locator('#class-list li[data-ix="417"]').isVisible());
+    const far = await page.evaluate(() => { const l = document.getElementById('class-list')!; return { sw: l.scrollWidth, cw: l.clientWidth }; });
+    assert.ok(far.sw <= far.cw + 1, 'the list scrolls down, not sideways');
+    assert.equal(await page.locator('#class-count').innerText(), `${hits} of 1000`);
+    await page.fill('#class-filter', '999');
+    assert.ok(await page.locator('#class-list li[data-ix="999"]').isVisible(), 'a class number finds its class');
+    await page.fill('#class-filter', '');
+    assert.equal(await visible(), 1000);
+    assert.deepEqual(await violations(), []);
+    assert.deepEqual(errors, []);
+    await page.close();
   });
 
   it('asks the host for an image picker, and sends a dropped file URI; the host accepts only those messages', async () => {
