@@ -31,7 +31,8 @@ function delayedProgress(title: string, onCancel: () => void): ProgressHandle {
   const push = () => {
     if (!reporter || !last || last.total <= 0) return;
     const pct = (100 * last.done) / last.total;
-    reporter.report({ increment: pct - shown, message: `${last.done}/${last.total}${last.message ? ` · ${last.message}` : ''}` });
+    // Whole steps only: some runs report fractions of a step.
+    reporter.report({ increment: pct - shown, message: `${Math.floor(last.done)}/${Math.round(last.total)}${last.message ? ` · ${last.message}` : ''}` });
     shown = pct;
   };
   const timer = setTimeout(() => {
@@ -65,7 +66,8 @@ export class PanelHost {
     for (const p of this.open.values()) p.relay.engineStopped(message, hint);
   }
 
-  show(model: string, image: string): void {
+  /** `opened` hears whether the model loaded on the image (the first time the panel asks). */
+  show(model: string, image: string, opened?: (ok: boolean) => void): void {
     const key = `${path.resolve(model)}\n${path.resolve(image)}`;
     const existing = this.open.get(key);
     if (existing) { existing.panel.reveal(vscode.ViewColumn.Beside); return; }
@@ -102,6 +104,7 @@ export class PanelHost {
       engine: this.d.engine, target: { model, image }, ui, log: this.d.log,
       post: (m) => { void webview.postMessage(m); },
       settings: this.d.settings, saveFolder: this.d.saveFolder,
+      ...(opened ? { opened } : {}),
     });
     const sub = webview.onDidReceiveMessage((m) => relay.receive(m));
     this.open.set(key, { panel, relay });

@@ -12,6 +12,9 @@ import {
   FromWebview, InitMessage, LayerInfo, MapData, PROTOCOL_VERSION, PanelImage, ToWebview, checkFromWebview, checkToWebview,
 } from '../webview/protocol';
 import { FactfoilSettings, estimatePlan } from './settings';
+import type { TrustReport } from '../core/trust/report';
+import { isPng, writeTrustReport } from '../core/trust/report-files';
+import { findMask } from '../core/io/masks';
 
 export interface ProgressHandle {
   report(done: number, total: number, message?: string): void;
@@ -46,6 +49,8 @@ export interface RelayDeps {
   settings(): FactfoilSettings;
   /** Where saved maps go for this image: undefined = beside it. */
   saveFolder(image: string): string | undefined;
+  /** Whether the panel's model opened on its image: the host remembers only a model that loads. */
+  opened?(ok: boolean): void;
 }
 
 /** The panel's form of the engine's view: image, classes, layers (explainable ones only), settings. */
@@ -92,6 +97,8 @@ export class PanelRelay {
   private readonly savedFiles = new Set<string>();
   /** Labels files the user chose in this host's dialog: the only new paths a settings change may name. */
   private readonly pickedLabels = new Set<string>();
+  /** Trust reports this panel received, by request id (the last few), for Save: the JSON is never taken from the webview. */
+  private readonly trustReports = new Map<number, TrustReport>();
   private disposed = false;
 
   constructor(private readonly d: RelayDeps) {}
@@ -184,6 +191,7 @@ export class PanelRelay {
         return;
       }
       case 'requestTrust': return this.onTrust(m);
+      case 'saveTrust': return this.onSaveTrust(m);
       default:
         this.d.log.warn(`the panel sent ${(m as { type: string }).type}, which this host does not handle yet; ignored`);
     }
@@ -192,10 +200,13 @@ export class PanelRelay {
   private async onReady(): Promise<void> {
     try {
       const view = await this.ensureView();
+      this.d.opened?.(true);
       this.post(initMessage(view, this.d.ui.imageUri(view), this.d.settings()));
       if (view.image.note) this.post({ type: 'notice', level: 'info', message: view.image.note.slice(0, 2000) });
     } catch (e) {
       const err = e as EngineRequestError;
+      // A stopped engine or a closed panel says nothing about the model.
+      if (err?.kind !== 'stopped' && err?.kind !== 'cancelled') this.d.opened?.(false);
       this.post({ type: 'notice', level: 'error', message: `Cannot open ${path.basename(this.d.target.image)} with ${path.basename(this.d.target.model)}: ${err?.message ?? e}`.slice(0, 2000), ...(err?.hint ? { hint: err.hint } : {}) });
       if (err?.kind === 'internal' || err?.kind === undefined) this.d.log.error(`opening the panel failed: ${err?.stack ?? e}`);
     }
@@ -250,7 +261,41 @@ export class PanelRelay {
       });
       this.running.set(m.id, req.id);
       const report = await req.result.finally(() => this.running.delete(m.id));
-      this.post({ type: 'trustResult', id: m.id, report });
+      this.trustReports.set(m.id, report);
+      for (const old of [...this.trustReports.keys()].slice(0, -4)) this.trustReports.delete(old);
+      // The panel names the mask file it was scored against (found by the check command's conventions).
+      const mask = report.truth?.source === 'mask' ? findMask({ file: view.image.path }) : undefined;
+      this.post({ type: 'trustResult', id: m.id, report, ...(mask ? { maskName: path.basename(mask) } : {}) });
+    } catch (e) {
+      this.fail(m.id, e);
+    }
+  }
+
+  /** Writes the engine's report and the panel's chart PNGs beside the image (or the save folder), never overwriting. */
+  private async onSaveTrust(m: Extract<FromWebview, { type: 'saveTrust' }>): Promise<void> {
+    try {
+      const report = this.trustReports.get(m.trustId);
+      if (!report) {
+        this.post({ type: 'failed', id: m.id, message: 'That trust report is no longer held by the editor.', hint: 'Run the checks again (Run checks), then save.' });
+        return;
+      }
+      const view = await this.ensureView();
+      const charts = m.charts.map((c) => ({ ext: `.${c.name}.png`, png: Buffer.from(c.png, 'base64') }));
+      const bad = charts.find((c) => !isPng(c.png));
+      if (bad) {
+        this.d.log.warn(`the panel sent a ${bad.ext} chart that is not a PNG; nothing saved`);
+        this.post({ type: 'failed', id: m.id, message: `The ${bad.ext.slice(1)} chart could not be rendered as a PNG; nothing was saved.`, hint: 'Details are in the Factfoil output channel.' });
+        return;
+      }
+      const outDir = this.d.saveFolder(view.image.path);
+      const files = await writeTrustReport({
+        imagePath: view.image.path, model: { path: view.summary.path, sha256: view.summary.sha256 }, labels: view.summary.classes, ...(outDir ? { outDir } : {}),
+      }, report, charts);
+      for (const f of files) this.savedFiles.add(f);
+      const where = path.dirname(files[0]) === path.dirname(view.image.path) ? 'beside the image' : `in ${path.dirname(files[0])}`;
+      const message = `Saved the trust report ${path.basename(files[0])}${charts.length ? ` and ${charts.length} chart${charts.length > 1 ? 's' : ''}` : ''} ${where}.`;
+      this.post({ type: 'saveResult', id: m.id, files, message });
+      this.d.ui.saved(files, message);
     } catch (e) {
       this.fail(m.id, e);
     }

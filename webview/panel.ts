@@ -1,4 +1,6 @@
 /**
+ * Stable hooks for end-to-end tests are listed in webview/README-ids.md (keep them in step).
+ *
  * The panel: holds what is being asked (kind, variant, fact, foil, layer), asks the host for maps,
  * and keeps every view in step with that state. Views only draw and report user actions.
  */
@@ -33,7 +35,7 @@ interface Prefs {
 }
 
 const KIND_WORDS: Record<MapKind, string> = {
-  evidence: 'Evidence', contrast: 'Contrast', mismatch: 'Mismatch', expectancy: 'Expectancy', detail: 'Detail', 'guided-evidence': 'Guided',
+  evidence: 'Evidence', contrast: 'Contrast', mismatch: 'Mismatch', expectancy: 'Expectancy', detail: 'Detail', 'guided-evidence': 'Guided evidence',
 };
 
 type Context = Omit<InitMessage, 'type' | 'version' | 'defaults'>;
@@ -46,7 +48,8 @@ export class Panel {
   private allLayers = false;
   private showMap = true;
   private estimate: EstimateChoice | undefined;
-  private prefs: Prefs = { colormap: 'viridis', opacity: 0.6, rangeMode: 'suggested', sharedScale: true, includeRaw: false };
+  // One scale across pins is off by default: maps of different kinds have unrelated units.
+  private prefs: Prefs = { colormap: 'viridis', opacity: 0.6, rangeMode: 'suggested', sharedScale: false, includeRaw: false };
   private pins: Pin[] = [];
   private nextPinId = 1;
   /** The maps request the progress line belongs to. */
@@ -57,8 +60,8 @@ export class Panel {
 
   // views
   private readonly root: HTMLElement;
-  private readonly title = h('div', { class: 'ff-title' });
-  private readonly question = h('h1', { class: 'ff-question-text' });
+  private readonly title = h('div', { class: 'ff-title', attrs: { id: 'ff-title' } });
+  private readonly question = h('h1', { class: 'ff-question-text', attrs: { id: 'ff-question' } });
   private readonly questionDetail = h('p', { class: 'ff-question-detail' });
   private readonly estimateBadge = h('span', { class: 'ff-estimate' });
   private readonly where = h('span', { class: 'ff-where' });
@@ -70,6 +73,7 @@ export class Panel {
   private readonly viewer = new MapViewer();
   private readonly note = h('p', { class: 'ff-note', attrs: { role: 'note' } });
   private readonly legend = new Legend();
+
   private readonly opacity: HTMLInputElement;
   private readonly colormapSelect: HTMLSelectElement;
   private readonly rangeSelect: HTMLSelectElement;
@@ -81,6 +85,9 @@ export class Panel {
   private readonly keys = buildKeyLegend();
   private readonly saveButton: HTMLButtonElement;
   private readonly pinButton: HTMLButtonElement;
+  private readonly settingsButton: HTMLButtonElement;
+  /** The open failed: nothing to ask about until the panel is opened again. */
+  private failed = false;
 
   constructor(private readonly link: HostLink, mount: HTMLElement) {
     this.prefs = { ...this.prefs, ...this.loadPrefs() };
@@ -97,8 +104,8 @@ export class Panel {
     this.variantField = h('div', { class: 'ff-picker ff-variant' }, [h('label', { class: 'ff-picker-caption', text: 'Variant' }), this.variantSelect]);
     this.variantSelect.id = 'ff-variant';
     this.variantField.firstElementChild!.setAttribute('for', 'ff-variant');
-    this.factPicker = new LabelPicker('Fact', (i) => this.setFact(i), 'ff-fact');
-    this.foilPicker = new LabelPicker('Foil', (i) => this.setFoil(i), 'ff-foil');
+    this.factPicker = new LabelPicker('Fact', (i) => this.setFact(i), 'ff-fact', 'ff-fact');
+    this.foilPicker = new LabelPicker('Foil', (i) => this.setFoil(i), 'ff-foil', 'ff-foil');
 
     this.opacity = h('input', { class: 'ff-range', attrs: { id: 'ff-opacity', type: 'range', min: 0, max: 1, step: 0.05, 'aria-keyshortcuts': '- =' },
       on: { input: () => this.setOpacity(Number(this.opacity.value)) } });
@@ -120,14 +127,14 @@ export class Panel {
       browseLabels: () => { this.labelsFileId = this.link.request({ type: 'pickLabelsFile' }); },
     }, (v) => { this.prefs.includeRaw = v; this.savePrefs(); });
 
-    this.pinButton = h('button', { class: 'ff-button ff-button-secondary', text: 'Pin', attrs: { type: 'button', 'aria-keyshortcuts': 'p', title: 'Pin the current map (P)' }, on: { click: () => this.pinCurrent() } });
-    this.saveButton = h('button', { class: 'ff-button', text: 'Save', attrs: { type: 'button', 'aria-keyshortcuts': 's', title: 'Save the map beside the image (S)' }, on: { click: () => this.saveCurrent() } });
+    this.pinButton = h('button', { class: 'ff-button ff-button-secondary', text: 'Pin', attrs: { id: 'ff-pin', type: 'button', 'aria-keyshortcuts': 'p', title: 'Pin the current map (P)' }, on: { click: () => this.pinCurrent() } });
+    this.saveButton = h('button', { class: 'ff-button', text: 'Save', attrs: { id: 'ff-save', type: 'button', 'aria-keyshortcuts': 's', title: 'Save the map beside the image (S)' }, on: { click: () => this.saveCurrent() } });
+    this.settingsButton = h('button', { class: 'ff-button ff-button-quiet', text: 'Preprocessing…', attrs: { id: 'ff-open-settings', type: 'button', 'aria-keyshortcuts': ',', title: 'Preprocessing and labels (,)' }, on: { click: () => this.openSettings() } });
     const head = h('header', { class: 'ff-head' }, [
       this.title,
       h('div', { class: 'ff-head-actions' }, [
-        this.pinButton, this.saveButton,
-        h('button', { class: 'ff-button ff-button-quiet', text: 'Settings', attrs: { type: 'button', 'aria-keyshortcuts': ',', title: 'Preprocessing and labels (,)' }, on: { click: () => this.openSettings() } }),
-        h('button', { class: 'ff-button ff-button-quiet ff-keys-button', text: '?', attrs: { type: 'button', 'aria-keyshortcuts': '?', 'aria-label': 'Keyboard', title: 'Keyboard (?)' }, on: { click: () => this.keys.showModal() } }),
+        this.pinButton, this.saveButton, this.settingsButton,
+        h('button', { class: 'ff-button ff-button-quiet ff-keys-button', text: '?', attrs: { id: 'ff-keys', type: 'button', 'aria-keyshortcuts': '?', 'aria-label': 'Keyboard', title: 'Keyboard (?)' }, on: { click: () => this.keys.showModal() } }),
       ]),
     ]);
     const display = h('div', { class: 'ff-display' }, [
@@ -149,6 +156,7 @@ export class Panel {
       this.drawer.root,
       this.keys,
     ]);
+    this.legend.root.id = 'ff-legend';
     clear(mount);
     mount.append(this.root);
     this.question.textContent = 'Waiting for the model…';
@@ -221,14 +229,38 @@ export class Panel {
         return;
       }
       case 'notice':
+        // An error before the first init means the model or image could not be opened.
+        if (!this.ctx && m.level === 'error') return this.showOpenFailed(m.message, m.hint);
         this.status.show(m.level === 'error' || m.level === 'warning' ? { kind: 'error', message: m.message, hint: m.hint } : { kind: 'info', message: m.message });
         return;
     }
   }
 
+  /** A failed open: no stale title, badges or live actions; the whole error stays readable. */
+  private showOpenFailed(message: string, hint?: string): void {
+    this.failed = true;
+    this.root.dataset.state = 'failed';
+    this.title.replaceChildren(h('span', { class: 'ff-title-image', text: 'Not opened' }));
+    this.question.textContent = 'This model and image could not be opened.';
+    this.questionDetail.textContent = '';
+    this.where.textContent = '';
+    this.estimateBadge.hidden = true;
+    this.legend.root.hidden = true;
+    document.title = 'Factfoil: not opened';
+    for (const b of Array.from(this.root.querySelectorAll<HTMLButtonElement | HTMLInputElement | HTMLSelectElement>('button, input, select'))) {
+      if (b.id !== 'ff-keys') b.disabled = true;
+    }
+    this.status.show({ kind: 'error', message, hint: hint ?? 'Fix the cause, then open the panel again (command: Factfoil: Explain Image with Factfoil…).' });
+  }
+
   private onInit(m: InitMessage): void {
     if (m.version !== PROTOCOL_VERSION) {
       this.status.show({ kind: 'error', message: `The extension speaks panel protocol ${m.version}, this panel ${PROTOCOL_VERSION}.`, hint: 'Reload the window after updating Factfoil.' });
+    }
+    if (this.failed) {
+      this.failed = false;
+      for (const b of Array.from(this.root.querySelectorAll<HTMLButtonElement | HTMLInputElement | HTMLSelectElement>('button, input, select'))) b.disabled = false;
+      this.status.show({ kind: 'idle' });
     }
     const { type: _t, version: _v, defaults, ...ctx } = m;
     this.ctx = ctx;
@@ -507,7 +539,7 @@ export class Panel {
     const pMap = new Map(prediction.map((p) => [p.index, p.p]));
     const source = { labels, ranked: rankedClasses(prediction, labels.length), probability: (i: number) => pMap.get(i) };
     this.factPicker.update(source, this.sel.fact, usesFact(kind));
-    this.foilPicker.update(source, this.sel.foil, true);
+    this.foilPicker.update(source, this.sel.foil, true, this.sel.fact);
     this.foilPicker.root.classList.toggle('is-inactive', !usesFoil(kind));
     this.factPicker.root.classList.toggle('is-inactive', !usesFact(kind));
 

@@ -173,7 +173,11 @@ export interface NoticeMessage { type: 'notice'; level: 'info' | 'warning' | 'er
 /** Progress of a trust-check request (its own type, so a panel can show it apart from map progress). */
 export interface TrustProgressMessage { type: 'trustProgress'; id: number; done: number; total: number; message?: string }
 /** The answer to `requestTrust`: the report runTrustChecks returned. Errors and cancellation come as `failed`. */
-export interface TrustResultMessage { type: 'trustResult'; id: number; report: TrustReport }
+export interface TrustResultMessage {
+  type: 'trustResult'; id: number; report: TrustReport;
+  /** File name of the mask the truth check scored against (when it used the image's mask file, not a box). */
+  maskName?: string;
+}
 
 export type ToWebview =
   | InitMessage | MapsResultMessage | ProgressMessage | SaveResultMessage | SettingsResultMessage
@@ -228,16 +232,26 @@ export interface RequestTrustMessage {
   maskFile?: string;
   seed?: number;
 }
+/** Trust charts the panel rendered (the same figures as on screen), written with the report. */
+export const TRUST_CHARTS = ['faithfulness', 'sanity', 'robustness'] as const;
+export type TrustChartName = (typeof TRUST_CHARTS)[number];
+export interface TrustChartPng { name: TrustChartName; png: string }
+/**
+ * Save the report of an answered `requestTrust` (by its id) beside the image: the host writes the
+ * report JSON it received from the engine and these PNG charts, never overwriting. Answered by
+ * `saveResult` or `failed`.
+ */
+export interface SaveTrustMessage { type: 'saveTrust'; id: number; trustId: number; charts: TrustChartPng[] }
 export interface CancelMessage { type: 'cancel'; id: number }
 export interface RevealMessage { type: 'reveal'; path: string }
 export interface LogMessage { type: 'log'; level: 'info' | 'warning' | 'error'; message: string }
 
 export type FromWebview =
   | ReadyMessage | RequestMapsMessage | SaveMessage | UpdateSettingsMessage | PickLabelsFileMessage
-  | CancelMessage | RevealMessage | LogMessage | RequestTrustMessage;
+  | CancelMessage | RevealMessage | LogMessage | RequestTrustMessage | SaveTrustMessage;
 
 /** Requests that expect an answer with the same id. */
-export type WebviewRequest = RequestMapsMessage | SaveMessage | UpdateSettingsMessage | PickLabelsFileMessage | RequestTrustMessage;
+export type WebviewRequest = RequestMapsMessage | SaveMessage | UpdateSettingsMessage | PickLabelsFileMessage | RequestTrustMessage | SaveTrustMessage;
 
 // ---- runtime checks ---------------------------------------------------------------------------
 
@@ -255,6 +269,8 @@ const SIDE = int(1, MAX_SIDE);
 const FINITE = num(-Number.MAX_VALUE, Number.MAX_VALUE);
 const POSITIVE = num(Number.MIN_VALUE, Number.MAX_VALUE);
 const BASE64 = /^[A-Za-z0-9+/]*={0,2}$/;
+/** A chart PNG is a few hundred kB at most; 16 MB of base64 leaves room without inviting abuse. */
+const MAX_CHART_PNG_BASE64 = 16 * 1024 * 1024;
 
 /** base64 text that decodes to exactly `count` float32 values. */
 function checkFloat32Base64(text: string, count: number, path: string): void {
@@ -437,7 +453,7 @@ const toWebview: Check<ToWebview> = tagged<ToWebview>({
   notice: obj<NoticeMessage>({ type: literal('notice'), level, message: MESSAGE, hint: opt(MESSAGE) }),
   trustProgress: refine(obj<TrustProgressMessage>({ type: literal('trustProgress'), id: REQUEST_ID, done: num(0, 1e12), total: num(0, 1e12), message: opt(MESSAGE) }),
     (m) => (m.done <= m.total ? undefined : `done ${m.done} > total ${m.total}`)),
-  trustResult: obj<TrustResultMessage>({ type: literal('trustResult'), id: REQUEST_ID, report: trustReport }),
+  trustResult: obj<TrustResultMessage>({ type: literal('trustResult'), id: REQUEST_ID, report: trustReport, maskName: opt(NAME) }),
 });
 
 const fromWebview: Check<FromWebview> = tagged<FromWebview>({
@@ -459,6 +475,10 @@ const fromWebview: Check<FromWebview> = tagged<FromWebview>({
     tests: arr(trustTest, TRUST_TESTS.length, 1), kinds: opt(arr(trustKind, TRUST_MAP_KINDS.length, 1)),
     box: opt(trustBox), maskFile: opt(PATH), seed: opt(int(0, 2 ** 32 - 1)),
   }), (m) => (m.box && m.maskFile ? 'give a box or a mask file, not both' : undefined)),
+  saveTrust: refine(obj<SaveTrustMessage>({
+    type: literal('saveTrust'), id: REQUEST_ID, trustId: REQUEST_ID,
+    charts: arr(obj<TrustChartPng>({ name: literal(...TRUST_CHARTS), png: refine(str(MAX_CHART_PNG_BASE64, 8), (t) => (BASE64.test(t) ? undefined : 'not base64 text')) }), TRUST_CHARTS.length),
+  }), (m) => (new Set(m.charts.map((c) => c.name)).size === m.charts.length ? undefined : 'a chart is named twice')),
 });
 
 export type Checked<T> = { ok: true; message: T } | { ok: false; reason: string };

@@ -98,3 +98,20 @@ export function driftCharts(r: TrustReport): LineChartSpec[] {
   };
   return [make('blur'), make('noise')].filter((c): c is LineChartSpec => !!c);
 }
+
+/**
+ * Standalone style for chart PNGs (white background): our own set, one colour per map kind in
+ * TRUST_MAP_KINDS order, every pair at least 106 apart in RGB and each at least 4.2:1 against
+ * white (WCAG 2.1's 3:1 for graphics); guided-evidence dashed and gradient dotted so contrast and
+ * gradient differ without colour; baselines grey. The panel's light theme uses the same values
+ * (webview/panel.css).
+ */
+export const CHART_PNG_STYLE = `
+.ff-chart-title{font:600 12px sans-serif;fill:#1a1a1a}.ff-chart-caption{font:10px sans-serif;fill:#555}
+.ff-chart-tick,.ff-chart-legend{font:10px sans-serif;fill:#333}.ff-chart-label{font:10px sans-serif;fill:#444}
+.ff-chart-axis{stroke:#666;stroke-width:1}.ff-chart-grid{stroke:#ddd;stroke-width:1}
+.ff-chart-line{fill:none;stroke-width:1.8}.ff-chart-dashed{stroke-dasharray:4 3}
+.ff-series-0{stroke:#2f62c4;fill:#2f62c4}.ff-series-1{stroke:#d42a2a;fill:#d42a2a}.ff-series-2{stroke:#1f8a3c;fill:#1f8a3c}
+.ff-series-3{stroke:#b22fa8;fill:#b22fa8}.ff-series-4{stroke:#8f7a00;fill:#8f7a00}.ff-series-base{stroke:#777;fill:#777}
+.ff-chart-line.ff-series-3{stroke-dasharray:7 3}.ff-chart-line.ff-series-4{stroke-dasharray:1.5 2.5;stroke-linecap:round}
+polyline.ff-chart-line{fill:none}`;

@@ -3,6 +3,9 @@
  * process, and every message the relay posts must pass the panel's own validator.
  */
 import { strict as assert } from 'node:assert';
+import { mkdtempSync, readFileSync, readdirSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import type { EngineMap, EngineOp, EngineRequestOf, EngineResultOf, ViewInfo } from '../../core/engine-process/protocol';
 import { EngineLike, EngineRequestError, PendingRequest, RequestHandlers } from '../../extension/engine-client';
 import { PanelRelay, PanelUi, initMessage, savedMessage } from '../../extension/panel-relay';
@@ -49,6 +52,8 @@ class ScriptedEngine implements EngineLike {
   private next = 100;
   /** Answer openView at once (most tests do not care about it). */
   autoOpen = true;
+  /** The image path the opened view reports (tests that write files point it at a temporary folder). */
+  imagePath?: string;
   views = 0;
 
   request<O extends EngineOp>(req: EngineRequestOf<O>, handlers: RequestHandlers<O> = {}): PendingRequest<O> {
@@ -57,7 +62,11 @@ class ScriptedEngine implements EngineLike {
     const result = new Promise<EngineResultOf<O>>((res, rej) => { resolve = res as (v: unknown) => void; reject = rej; });
     const call = { id, req: req as EngineRequestOf<EngineOp>, handlers: handlers as RequestHandlers<EngineOp>, resolve, reject };
     this.calls.push(call);
-    if (req.op === 'openView' && this.autoOpen) resolve(view(`v${++this.views}`));
+    if (req.op === 'openView' && this.autoOpen) {
+      const v = view(`v${++this.views}`);
+      if (this.imagePath) v.image.path = this.imagePath;
+      resolve(v);
+    }
     if (req.op === 'closeView') resolve({});
     return { id, result };
   }
@@ -71,7 +80,7 @@ class ScriptedEngine implements EngineLike {
 
 const tick = () => new Promise((r) => setImmediate(r));
 
-function setup(settings: Partial<FactfoilSettings> = {}) {
+function setup(settings: Partial<FactfoilSettings> = {}, opened?: (ok: boolean) => void) {
   const engine = new ScriptedEngine();
   const posted: ToWebview[] = [];
   const logs: string[] = [];
@@ -96,6 +105,7 @@ function setup(settings: Partial<FactfoilSettings> = {}) {
     log: { info: (m) => logs.push(`info ${m}`), warn: (m) => logs.push(`warn ${m}`), error: (m) => logs.push(`error ${m}`) },
     settings: () => ({ ...DEFAULT_SETTINGS, ...settings }),
     saveFolder: () => settings.saveLocation === 'folder' ? '/w/maps' : undefined,
+    ...(opened ? { opened } : {}),
   });
   const ofType = <T extends ToWebview['type']>(t: T) => posted.filter((m): m is Extract<ToWebview, { type: T }> => m.type === t);
   return { engine, posted, logs, ui, relay, ofType };
@@ -115,6 +125,24 @@ describe('panel relay (extension host side of the panel)', () => {
     assert.equal(init.expected, 1);
     assert.deepEqual(init.defaults, { kind: 'mismatch', colormap: 'inferno', estimate: 'auto' });
     assert.match(init.image.uri, /^https:\/\/file\+\.vscode-resource/);
+  });
+
+  it('tells the host whether the model opened, so only a model that loads is remembered', async () => {
+    const good: boolean[] = [];
+    const ok = setup({}, (o) => good.push(o));
+    ok.relay.receive({ type: 'ready', version: PROTOCOL_VERSION });
+    await tick();
+    assert.deepEqual(good, [true]);
+    for (const [kind, heard] of [['user', [false]], ['internal', [false]], ['stopped', []], ['cancelled', []]] as const) {
+      const said: boolean[] = [];
+      const bad = setup({}, (o) => said.push(o));
+      bad.engine.autoOpen = false;
+      bad.relay.receive({ type: 'ready', version: PROTOCOL_VERSION });
+      await tick();
+      bad.engine.last('openView').reject(new EngineRequestError(kind, 'cannot read /w/parts-sorter.onnx'));
+      await tick(); await tick();
+      assert.deepEqual(said, heard, kind);
+    }
   });
 
   it('passes the decoder\'s note on an image (first frame of an animation) to the panel as a notice', async () => {
@@ -309,6 +337,44 @@ describe('panel relay (extension host side of the panel)', () => {
     const trusts = engine.calls.filter((c) => c.req.op === 'trust');
     assert.equal(trusts.length, 2);
     assert.equal((trusts[1].req as { maskFile?: string }).maskFile, undefined);
+  });
+
+  it('saves a trust report it received (JSON from the engine, PNG charts from the panel) beside the image, never overwriting', async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'factfoil-relay-trust-'));
+    try {
+      const image = join(dir, 'washer-0001.png');
+      const { relay, engine, ofType, ui } = setup();
+      engine.imagePath = image;
+      // Nothing is held before a report arrived.
+      relay.receive({ type: 'saveTrust', id: 30, trustId: 31, charts: [] });
+      await tick();
+      assert.match(ofType('failed')[0].message, /no longer held/);
+      relay.receive({ type: 'requestTrust', id: 31, layer: 'stage1', fact: 1, tests: ['faithfulness'] });
+      await tick(); await tick();
+      const report = { format: 'factfoil-trust/1', layer: 'stage1', fact: 1, p_fact: 0.65, kinds: ['evidence'], seed: 7, notes: [] };
+      engine.last('trust').resolve(report);
+      await tick();
+      // A PNG signature plus one byte (PNG specification 5.2) is enough for the relay's check.
+      const png = Buffer.from([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a, 0]).toString('base64');
+      relay.receive({ type: 'saveTrust', id: 32, trustId: 31, charts: [{ name: 'faithfulness', png: Buffer.from('GIF89a--').toString('base64') }] });
+      for (let i = 0; i < 200 && ofType('failed').length < 2; i++) await new Promise((r) => setTimeout(r, 5));
+      assert.match(ofType('failed')[1].message, /could not be rendered as a PNG; nothing was saved/);
+      assert.deepEqual(readdirSync(dir), []);
+      for (const [n, id] of [[1, 33], [2, 34]]) {
+        relay.receive({ type: 'saveTrust', id, trustId: 31, charts: [{ name: 'faithfulness', png }] });
+        for (let i = 0; i < 200 && ofType('saveResult').length < n; i++) await new Promise((r) => setTimeout(r, 5));
+      }
+      const saved = ofType('saveResult');
+      assert.deepEqual(saved.map((m) => m.files.map((f) => f.slice(dir.length + 1))), [
+        ['washer-0001.trust.stage1.washer.json', 'washer-0001.trust.stage1.washer.faithfulness.png'],
+        ['washer-0001.trust.stage1.washer-2.json', 'washer-0001.trust.stage1.washer-2.faithfulness.png'],
+      ]);
+      assert.equal(saved[0].message, 'Saved the trust report washer-0001.trust.stage1.washer.json and 1 chart beside the image.');
+      assert.equal(JSON.parse(readFileSync(saved[0].files[0], 'utf8')).format, 'factfoil-trust/1');
+      assert.equal(ui.saved.length, 2);
+    } finally {
+      rmSync(dir, { recursive: true, force: true });
+    }
   });
 
   it('initMessage and savedMessage say where things are', () => {

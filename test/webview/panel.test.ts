@@ -163,7 +163,7 @@ describe('panel in headless Chromium', function () {
     await p.close();
   });
 
-  it('pins two maps with one shared scale, shows probe-then-exact, saves the current and a pinned map', async () => {
+  it('pins two maps each with its own scale, shows probe-then-exact, saves the current and a pinned map', async () => {
     const p = await browser.open('vscode-light', { width: 1000, height: 900 });
     const { page, host } = p;
     await host.waitFor('requestMaps');
@@ -187,11 +187,17 @@ describe('panel in headless Chromium', function () {
     await page.keyboard.press('p');
     assert.equal(await page.locator('.ff-pin').count(), 2);
 
-    // One shared scale: the union of both pins' ranges (contrast hi ≈ 1.3, mismatch hi ≈ 0.004).
-    const hi = Math.max(host.sentMaps.get(firstMap)!.range.hi, host.sentMaps.get(secondMap)!.range.hi);
-    assert.equal(await text(page, '.ff-tray-legend .ff-legend-hi'), formatValue(hi));
+    // A scale per pin by default, each with its own colour bar (contrast hi ≈ 1.3, mismatch hi ≈ 0.004:
+    // one scale across both would paint the mismatch pin flat).
+    const hi = host.sentMaps.get(firstMap)!.range.hi;
+    const hi2 = host.sentMaps.get(secondMap)!.range.hi;
+    const pinHi = (n: number) => page.locator('.ff-pin').nth(n).locator('.ff-pin-legend .ff-legend-hi').innerText();
+    assert.equal(await page.locator('#ff-shared-scale').isChecked(), false, 'shared scale is off by default');
+    assert.deepEqual([await pinHi(0), await pinHi(1)], [formatValue(hi), formatValue(hi2)]);
+    // Shared scales only join pins of one kind: a contrast and a mismatch pin keep their own.
     await page.keyboard.press('u');
-    assert.equal(await page.locator('.ff-tray-legend').isHidden(), true, 'per-map scales: no shared legend');
+    assert.equal(await page.locator('#ff-shared-scale').isChecked(), true);
+    assert.deepEqual([await pinHi(0), await pinHi(1)], [formatValue(hi), formatValue(hi2)]);
     await page.keyboard.press('u');
 
     // Save the current map with the key; the host's answer shows with Reveal.
@@ -205,7 +211,7 @@ describe('panel in headless Chromium', function () {
     const reveal = host.last('reveal');
     assert.equal(reveal?.path, '/work/parts/belt-0417.mismatch.block3.png');
 
-    // Save the first pin: its map id, drawn on the shared scale.
+    // Save the first pin: its map id, drawn on its own scale.
     await page.locator('.ff-pin').first().locator('[data-action="save"]').click();
     const save2 = await host.waitFor('save', 2);
     assert.equal(save2.mapId, firstMap);
@@ -309,8 +315,24 @@ describe('panel in headless Chromium', function () {
     const p = await browser.open('vscode-light', { width: 1000, height: 900 });
     const { page, host } = p;
     await host.waitFor('requestMaps');
+    // The page is sandboxed like VS Code's webview without allow-forms: a form's submit never
+    // reaches its handler (HTML, form submission algorithm: sandboxed forms flag). The canary
+    // shows the harness really blocks it, so the drawer cannot rely on a form.
+    const canary = await page.evaluate(() => {
+      const f = document.createElement('form');
+      f.method = 'dialog';
+      let fired = false;
+      f.addEventListener('submit', (e) => { fired = true; e.preventDefault(); });
+      document.body.append(f);
+      f.requestSubmit();
+      f.remove();
+      return fired;
+    });
+    assert.equal(canary, false, 'the harness blocks form submission as the editor does');
+    p.consoleErrors.splice(0, p.consoleErrors.length, ...p.consoleErrors.filter((e) => !/allow-forms/.test(e)));
     await page.keyboard.press(',');
     await page.waitForSelector('dialog.ff-drawer[open]');
+    assert.equal(await page.locator('dialog#ff-drawer form').count(), 0, 'no form in the drawer');
     assert.equal(await page.locator('input[name="width"]').inputValue(), String(MODEL));
     await page.locator('select[name="resize"]').selectOption('crop');
     await page.locator('select[name="preset"]').selectOption({ label: 'Symmetric: x / 127.5 − 1' });

@@ -15,6 +15,7 @@ import { STAGES, idx } from './harness/synthetic-scene';
 import { Engine } from '../../core/engine/engine';
 import { openModel } from '../../core/workflow/open-model';
 import { imageInput } from '../../core/workflow/model-input';
+import { faithfulnessVerdict } from '../../webview/trust-verdict';
 import { regionFor, runTrustChecks } from '../../core/trust/run';
 import type { TrustReport } from '../../core/trust/report';
 import { FIXTURES } from '../helpers';
@@ -69,9 +70,10 @@ describe('trust view in headless Chromium', function () {
     const req = await host.waitFor('requestTrust');
     assert.deepEqual({ ...req, id: 0 }, { type: 'requestTrust', id: 0, layer: deepest.id, fact: idx('washer'), foil: idx('bearing'), tests: ['sanity', 'faithfulness', 'robustness'] });
     assert.equal(await page.locator('[data-action="run-trust"]').isDisabled(), true, 'one run at a time');
-    await host.send({ type: 'trustProgress', id: req.id, done: 3, total: 12, message: 'sanity: randomized logits, stage4' });
+    await host.send({ type: 'trustProgress', id: req.id, done: 3, total: 12, message: `sanity: randomized logits, ${deepest.id}` });
     await page.waitForSelector('.ff-trust-status[data-kind="progress"]');
-    assert.match(await text(page, '.ff-trust-status'), /randomized logits, stage4/);
+    // Step words and whole step numbers, not tensor names (the deepest stage shows by its short name).
+    assert.equal(await text(page, '.ff-trust-status .ff-status-text'), `Weight randomization: down to ${deepest.short} (2 blocks) (step 4 of 12)`);
     assert.equal(await page.locator('.ff-trust progress').evaluate((e) => (e as HTMLProgressElement).value), 0.25);
     await page.click('.ff-trust-status [data-action="cancel"]');
     assert.deepEqual(await host.waitFor('cancel'), { type: 'cancel', id: req.id });
@@ -110,11 +112,20 @@ describe('trust view in headless Chromium', function () {
     it(`draws the report: charts per check with their explanations and the caution (${theme}, screenshot)`, async () => {
       const p = await browser.open(theme, { width: 1000, height: 900 });
       const { page, host } = p;
-      for (const [k, v] of [['x', '150'], ['y', '90'], ['width', '100'], ['height', '80']]) await page.fill(`[data-box="${k}"]`, v);
+      // No box: the host scores against the image's mask file and names it.
+      await page.check('#ff-trust-truth');
       await page.click('[data-action="run-trust"]');
       const req = await host.waitFor('requestTrust');
-      await host.send({ type: 'trustResult', id: req.id, report: { ...report, layer: req.layer } });
+      assert.equal(req.box, undefined);
+      assert.equal(await page.locator('#ff-trust-save').isDisabled(), true, 'nothing to save before a report');
+      await host.send({ type: 'trustResult', id: req.id, report: { ...report, layer: req.layer }, maskName: 'washer-0001.mask.png' });
       await page.waitForSelector('.ff-trust-figure[data-test="robustness"]');
+      // Every check carries a verdict with its rule; faithfulness agrees with the rule applied here.
+      const verdicts = await page.locator('.ff-trust-figure').evaluateAll((els) => els.map((e) => e.getAttribute('data-verdict')));
+      assert.ok(verdicts.every((v) => v === 'passed' || v === 'doubtful' || v === 'failed'), `verdicts ${verdicts}`);
+      assert.equal(await page.locator('[data-test="faithfulness"]').getAttribute('data-verdict'), faithfulnessVerdict(report)!.verdict);
+      assert.match(await text(page, '[data-test="faithfulness"] .ff-verdict-rule'), /^Rule: Passed when the deletion area is at least 0\.05 below/);
+      assert.match(await text(page, '[data-test="truth"] figcaption'), /^Scores against the mask file washer-0001\.mask\.png:/);
       const figures = await page.locator('.ff-trust-figure').evaluateAll((els) => els.map((e) => e.getAttribute('data-test')));
       assert.deepEqual(figures, ['sanity', 'faithfulness', 'truth', 'robustness']);
       // Cascade: one line per kind; faithfulness: per chart one line per kind plus the random baselines.
@@ -132,11 +143,38 @@ describe('trust view in headless Chromium', function () {
       assert.match(await text(page, '[data-test="faithfulness"] .ff-trust-figures'), /evidence \d\.\d\d \/ \d\.\d\d \(random/);
       assert.equal(await page.locator('.ff-trust-table tbody tr').count(), 4);
       assert.match(await text(page, '.ff-trust-caution'), /explains the model, not the world/);
-      // Series colours come from the theme: the evidence line is drawn in --vscode-charts-blue.
-      const stroke = await page.locator('[data-test="sanity"] polyline.ff-series-0').first().evaluate((e) => getComputedStyle(e).stroke);
-      const blue = await page.evaluate(() => getComputedStyle(document.body).getPropertyValue('--vscode-charts-blue').trim());
-      const rgb = (hex: string) => `rgb(${[1, 3, 5].map((i) => parseInt(hex.slice(i, i + 2), 16)).join(', ')})`;
-      assert.equal(stroke, rgb(blue));
+      // Series colours are our own set, not the theme's (whose orange and yellow nearly coincide):
+      // every pair of map kinds differs clearly. Distance in RGB over 100 of 441: common practice, no source.
+      const styles = await page.evaluate(() => {
+        const svg = document.createElementNS('http://www.w3.org/2000/svg', 'svg');
+        document.querySelector('.ff-trust-charts')!.append(svg);
+        const out = [0, 1, 2, 3, 4].map((i) => {
+          const line = document.createElementNS('http://www.w3.org/2000/svg', 'polyline');
+          line.setAttribute('class', `ff-chart-line ff-series-${i}`);
+          svg.append(line);
+          const cs = getComputedStyle(line);
+          return { stroke: cs.stroke, dash: cs.strokeDasharray };
+        });
+        svg.remove();
+        return out;
+      });
+      const rgbOf = (c: string) => c.match(/\d+/g)!.map(Number);
+      for (let i = 0; i < styles.length; i++) for (let j = i + 1; j < styles.length; j++) {
+        const [a, b] = [rgbOf(styles[i].stroke), rgbOf(styles[j].stroke)];
+        const d = Math.hypot(a[0] - b[0], a[1] - b[1], a[2] - b[2]);
+        assert.ok(d > 100, `series ${i} ${styles[i].stroke} and ${j} ${styles[j].stroke} are too close (${d.toFixed(0)})`);
+      }
+      // Contrast (slot 1) and gradient (slot 4) also differ by their dashes.
+      assert.notEqual(styles[1].dash, styles[4].dash);
+      // Save: the charts go to the host as PNGs with the id of the report they belong to.
+      await page.click('#ff-trust-save');
+      const save = await host.waitFor('saveTrust');
+      assert.equal(save.trustId, req.id);
+      assert.deepEqual(save.charts.map((c) => c.name), ['faithfulness', 'sanity', 'robustness']);
+      for (const c of save.charts) assert.equal(Buffer.from(c.png, 'base64').subarray(1, 4).toString('latin1'), 'PNG', `${c.name} chart is a PNG`);
+      await host.send({ type: 'saveResult', id: save.id, files: ['/work/parts/washer-0001.trust.stage4.washer.json'], message: 'Saved the trust report washer-0001.trust.stage4.washer.json and 3 charts beside the image.' });
+      await page.waitForSelector('.ff-trust-status[data-kind="info"]');
+      assert.match(await text(page, '.ff-trust-status'), /Saved the trust report/);
       await page.locator('.ff-trust').scrollIntoViewIfNeeded();
       await page.locator('.ff-trust').screenshot({ path: join(SHOTS, `trust-${theme.replace('vscode-', '')}.png`) });
       assertClean(p);

@@ -16,7 +16,7 @@ export class DepthStrip {
     this.list = h('ol', { class: 'ff-depth-list' });
     this.scopeToggle = h('input', { attrs: { type: 'checkbox' }, on: { change: () => onScope(this.scopeToggle.checked) } });
     this.scopeLabel = h('label', { class: 'ff-check' }, [this.scopeToggle, ' all layers']);
-    this.root = h('section', { class: 'ff-depth', attrs: { 'aria-label': 'Depth' } }, [
+    this.root = h('section', { class: 'ff-depth', attrs: { id: 'ff-depth', 'aria-label': 'Depth' } }, [
       h('div', { class: 'ff-section-head' }, [h('h2', { class: 'ff-h2', text: 'Depth' }), h('span', { class: 'ff-hint', text: '↑ ↓ or [ ]' }), this.scopeLabel]),
       this.list,
     ]);

@@ -19,11 +19,12 @@ export class LabelPicker {
   private options: number[] = [];
   private active = -1;
   private current = 0;
+  /** A class this picker may not take (the foil picker's fact): listed, marked, never picked. */
+  private excluded?: number;
   private source: PickerSource = { labels: [], ranked: [], probability: () => undefined };
 
-  constructor(caption: string, private readonly onPick: (index: number) => void, cssClass: string) {
+  constructor(caption: string, private readonly onPick: (index: number) => void, cssClass: string, inputId = uid('ff-pick')) {
     const listId = uid('ff-list');
-    const inputId = uid('ff-pick');
     this.input = h('input', {
       class: 'ff-picker-input',
       attrs: {
@@ -46,9 +47,10 @@ export class LabelPicker {
     ]);
   }
 
-  update(source: PickerSource, current: number, enabled: boolean): void {
+  update(source: PickerSource, current: number, enabled: boolean, excluded?: number): void {
     this.source = source;
     this.current = current;
+    this.excluded = excluded;
     this.input.disabled = !enabled;
     if (document.activeElement !== this.input) this.input.value = source.labels[current] ?? '';
   }
@@ -70,15 +72,19 @@ export class LabelPicker {
     clear(this.list);
     this.options.forEach((idx, i) => {
       const p = this.source.probability(idx);
+      const off = idx === this.excluded;
       const li = h('li', {
-        class: 'ff-picker-option',
-        attrs: { id: `${this.list.id}-${i}`, role: 'option', 'aria-selected': i === this.active ? 'true' : 'false' },
+        class: `ff-picker-option${off ? ' is-excluded' : ''}`,
+        attrs: {
+          id: `${this.list.id}-${i}`, role: 'option', 'data-class': idx, 'aria-selected': i === this.active ? 'true' : 'false',
+          ...(off ? { 'aria-disabled': 'true', title: 'This is the fact class; a foil must differ from it' } : {}),
+        },
         on: {
           mousedown: (e) => { e.preventDefault(); this.pick(idx); },
         },
       }, [
         h('span', { class: 'ff-picker-label', text: this.source.labels[idx] }),
-        p !== undefined ? h('span', { class: 'ff-picker-p', text: `${(p * 100).toFixed(1)}%` }) : undefined,
+        off ? h('span', { class: 'ff-picker-p', text: 'fact' }) : p !== undefined ? h('span', { class: 'ff-picker-p', text: `${(p * 100).toFixed(1)}%` }) : undefined,
       ]);
       this.list.append(li);
     });
@@ -105,6 +111,11 @@ export class LabelPicker {
   }
 
   private pick(index: number): void {
+    if (index === this.excluded) {
+      // Refused, and the input goes back to the current choice so what is shown matches the question.
+      this.input.blur();
+      return;
+    }
     this.current = index;
     this.input.value = this.source.labels[index] ?? '';
     this.input.blur();

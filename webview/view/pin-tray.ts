@@ -1,6 +1,8 @@
 /**
- * Pinned maps side by side. One shared colour scale by default (the union of the pins' display
- * ranges, so equal colours mean equal values across pins), or a scale per map.
+ * Pinned maps side by side, each with its own colour bar. A scale per map by default; on request
+ * one scale per map kind (the union of those pins' display ranges, so equal colours mean equal
+ * values). Kinds are never mixed: a mismatch map's values are orders of magnitude below a
+ * contrast map's, and a scale shared with one would paint the other flat.
  */
 import { clear, h } from '../dom';
 import { sharedRange } from '../map-render';
@@ -32,37 +34,32 @@ export class PinTray {
   readonly root: HTMLElement;
   private readonly list: HTMLUListElement;
   private readonly sharedToggle: HTMLInputElement;
-  private readonly legend = new Legend('ff-tray-legend');
   private readonly empty: HTMLElement;
 
   constructor(private readonly actions: PinActions) {
     this.list = h('ul', { class: 'ff-pins' });
-    this.sharedToggle = h('input', { attrs: { type: 'checkbox', 'aria-keyshortcuts': 'u' }, on: { change: () => actions.toggleShared(this.sharedToggle.checked) } });
+    this.sharedToggle = h('input', { attrs: { id: 'ff-shared-scale', type: 'checkbox', 'aria-keyshortcuts': 'u' }, on: { change: () => actions.toggleShared(this.sharedToggle.checked) } });
     this.empty = h('p', { class: 'ff-hint ff-tray-empty', text: 'Press P to pin the current map and compare maps side by side.' });
-    this.root = h('section', { class: 'ff-tray', attrs: { 'aria-label': 'Pinned maps' } }, [
+    this.root = h('section', { class: 'ff-tray', attrs: { id: 'ff-pins', 'aria-label': 'Pinned maps' } }, [
       h('div', { class: 'ff-section-head' }, [
         h('h2', { class: 'ff-h2', text: 'Pinned' }),
-        h('label', { class: 'ff-check' }, [this.sharedToggle, ' one shared scale']),
+        h('label', { class: 'ff-check', attrs: { title: 'Pins of the same map kind share one colour scale (U)' } }, [this.sharedToggle, ' one scale per map kind']),
       ]),
-      this.legend.root,
       this.empty,
       this.list,
     ]);
   }
 
-  /** The range each pin is drawn with. */
+  /** The range each pin is drawn with: its own, or the union over the pins of its kind. */
   static rangesFor(pins: readonly Pin[], shared: boolean): DisplayRange[] {
     if (!shared) return pins.map((p) => p.range);
-    const r = sharedRange(pins.map((p) => p.range));
-    return pins.map(() => r);
+    return pins.map((p) => sharedRange(pins.filter((q) => q.map.data.kind === p.map.data.kind).map((q) => q.range)));
   }
 
   update(pins: readonly Pin[], image: PanelImage, colormap: ColormapName, shared: boolean): void {
     this.sharedToggle.checked = shared;
     this.empty.hidden = pins.length > 0;
     const ranges = PinTray.rangesFor(pins, shared);
-    this.legend.root.hidden = !(shared && pins.length > 0);
-    if (shared && pins.length) this.legend.update(colormap, ranges[0], `shared by ${pins.length} pinned map${pins.length > 1 ? 's' : ''}`);
     clear(this.list);
     const scale = Math.min(1, CARD_PIXELS / image.width);
     pins.forEach((pin, i) => {
@@ -70,6 +67,9 @@ export class PinTray {
       paintOverlay(canvas, pin.map, image.geometry, image.width, image.height, ranges[i], colormap, scale);
       const img = h('img', { class: 'ff-image', attrs: { src: image.uri, alt: '', width: image.width, height: image.height } });
       const d = pin.map.data;
+      const sameKind = pins.filter((q) => q.map.data.kind === d.kind).length;
+      const legend = new Legend('ff-pin-legend');
+      legend.update(colormap, ranges[i], shared && sameKind > 1 ? `shared by ${sameKind} ${d.kind} pins` : 'this map\'s own scale');
       const card = h('li', {
         class: 'ff-pin', attrs: { tabindex: 0, 'data-pin': pin.pinId, 'aria-label': `Pinned: ${pin.question} at ${d.layerShort}. Enter to open, Delete to remove.` },
         on: { keydown: (e) => {
@@ -84,6 +84,7 @@ export class PinTray {
           h('span', { class: 'ff-pin-question', text: pin.question }),
           h('span', { class: 'ff-pin-meta', text: `${d.kind}${d.variant ? ` · ${d.variant}` : ''} · ${d.layerShort}` }),
         ]),
+        legend.root,
         h('div', { class: 'ff-pin-actions' }, [
           h('button', { class: 'ff-button ff-button-small', text: 'Save', attrs: { type: 'button', 'data-action': 'save' }, on: { click: () => this.actions.save(pin) } }),
           h('button', { class: 'ff-button ff-button-small ff-button-quiet', text: '×', attrs: { type: 'button', 'data-action': 'remove', 'aria-label': 'Remove pin', title: 'Remove pin' }, on: { click: () => this.actions.remove(pin) } }),

@@ -47,7 +47,7 @@ export class SettingsDrawer {
   private readonly std = [0, 1, 2].map((c) => numberInput('any', `std${c}`));
   private readonly labelsFile = h('input', { class: 'ff-input', attrs: { type: 'text', name: 'labelsFile', placeholder: 'labels from the model', spellcheck: 'false' } });
   readonly includeRaw = h('input', { attrs: { type: 'checkbox', name: 'includeRaw' } });
-  private readonly error = h('p', { class: 'ff-form-error', attrs: { role: 'alert' } });
+  private readonly error = h('p', { class: 'ff-form-error', attrs: { role: 'alert', id: 'ff-drawer-error' } });
 
   constructor(private readonly actions: SettingsActions, onIncludeRaw: (v: boolean) => void) {
     const preset = h('select', { class: 'ff-select', attrs: { name: 'preset' }, on: { change: () => this.applyPreset(preset) } }, [
@@ -59,7 +59,9 @@ export class SettingsDrawer {
       h('legend', { text: caption }),
       ...inputs.map((inp, c) => { inp.setAttribute('aria-label', `${caption} ${'RGB'[c]}`); return h('span', { class: 'ff-triple-cell' }, [h('span', { class: 'ff-triple-tag', text: 'RGB'[c] }), inp]); }),
     ]);
-    const form = h('form', { class: 'ff-settings', attrs: { method: 'dialog' }, on: { submit: (e) => this.submit(e) } }, [
+    // No <form> submit: VS Code's webview sandbox blocks form submission (no allow-forms), so
+    // Apply is a plain button and Enter in a field does the same.
+    const form = h('div', { class: 'ff-settings', attrs: { role: 'group' }, on: { keydown: (e) => this.onKey(e) } }, [
       h('header', { class: 'ff-drawer-head' }, [h('h2', { class: 'ff-h2', text: 'Preprocessing and labels' })]),
       h('div', { class: 'ff-field-row' }, [field('Width', this.width), field('Height', this.height)]),
       field('Resize', this.resize),
@@ -76,11 +78,11 @@ export class SettingsDrawer {
       h('label', { class: 'ff-check' }, [this.includeRaw, ' Save also writes the raw layer map (.npy)']),
       this.error,
       h('footer', { class: 'ff-drawer-foot' }, [
-        h('button', { class: 'ff-button', text: 'Apply', attrs: { type: 'submit', value: 'apply' } }),
-        h('button', { class: 'ff-button ff-button-secondary', text: 'Close', attrs: { type: 'button' }, on: { click: () => this.root.close() } }),
+        h('button', { class: 'ff-button', text: 'Apply', attrs: { type: 'button', id: 'ff-drawer-apply' }, on: { click: () => this.apply() } }),
+        h('button', { class: 'ff-button ff-button-secondary', text: 'Close', attrs: { type: 'button', id: 'ff-drawer-close' }, on: { click: () => this.root.close() } }),
       ]),
     ]);
-    this.root = h('dialog', { class: 'ff-drawer', attrs: { 'aria-label': 'Preprocessing and labels' } }, [form]);
+    this.root = h('dialog', { class: 'ff-drawer', attrs: { id: 'ff-drawer', 'aria-label': 'Preprocessing and labels' } }, [form]);
   }
 
   open(settings: ModelSettings, includeRaw: boolean): void {
@@ -133,8 +135,15 @@ export class SettingsDrawer {
     return labelsFile ? { preprocessing, labelsFile } : { preprocessing };
   }
 
-  private submit(e: SubmitEvent): void {
+  /** Enter in a text or number field applies, as a form would (buttons and selects keep their own Enter). */
+  private onKey(e: KeyboardEvent): void {
+    const t = e.target as HTMLElement | null;
+    if (e.key !== 'Enter' || !(t instanceof HTMLInputElement) || t.type === 'checkbox') return;
     e.preventDefault();
+    this.apply();
+  }
+
+  private apply(): void {
     const s = this.read();
     if (typeof s === 'string') { this.error.textContent = s; return; }
     this.root.close();

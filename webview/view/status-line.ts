@@ -12,15 +12,14 @@ export class StatusLine {
   status: Status = { kind: 'idle' };
 
   constructor() {
-    this.root = h('div', { class: 'ff-status', attrs: { role: 'status', 'aria-live': 'polite' } });
-    this.root.hidden = true;
+    this.root = h('div', { class: 'ff-status', attrs: { id: 'ff-status', role: 'status', 'aria-live': 'polite', 'data-kind': 'idle' } });
   }
 
   show(s: Status): void {
     this.status = s;
     const r = this.root;
     clear(r);
-    r.hidden = s.kind === 'idle';
+    // Idle keeps the row's space (CSS hides it), so the layout does not jump when progress appears.
     r.dataset.kind = s.kind;
     if (s.kind === 'progress') {
       const bar = h('progress', { class: 'ff-progress', attrs: { max: 1, 'aria-label': s.message } });

@@ -1,7 +1,9 @@
 /**
  * Serves the test page with the real bundle (dist/webview.js, dist/panel.css) under a strict
  * Content-Security-Policy like a VS Code webview's: scripts only by nonce, styles only from files,
- * images only from data:, nothing remote.
+ * images only from data:, nothing remote. The page is sandboxed as VS Code sandboxes its webview
+ * iframe when enableForms is off (scripts and same-origin allowed, forms not), so a control that
+ * relies on form submission fails here as it does in the editor.
  */
 import { createServer, Server } from 'node:http';
 import { readFileSync } from 'node:fs';
@@ -10,7 +12,7 @@ import { AddressInfo } from 'node:net';
 
 const ROOT = join(__dirname, '..', '..', '..');
 const NONCE = 'ffTestNonce4711';
-export const CSP = `default-src 'none'; img-src data: blob:; style-src 'self'; script-src 'nonce-${NONCE}'; connect-src 'none'; font-src 'none'`;
+export const CSP = `default-src 'none'; img-src data: blob:; style-src 'self'; script-src 'nonce-${NONCE}'; connect-src 'none'; font-src 'none'; form-action 'none'; sandbox allow-scripts allow-same-origin allow-pointer-lock allow-downloads`;
 
 const FILES: Record<string, [string, string]> = {
   '/dist/webview.js': [join(ROOT, 'dist', 'webview.js'), 'text/javascript'],
