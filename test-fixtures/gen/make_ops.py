@@ -128,6 +128,57 @@ def add_conv_cases():
          [N("Conv", ["x", "w"], ["y"], strides=[2, 1], pads=[1, 0, 0, 1])],
          {"w": w}, lambda x, c: conv_ref(x, c["w"], strides=(2, 1), pads=(1, 0, 0, 1)))
 
+    # Strided geometries the Conv input gradient must get right at every output phase: odd
+    # strides with dilation, sizes the stride does not divide, a stride larger than the kernel
+    # (a phase no tap reaches), auto_pad SAME_UPPER/SAME_LOWER, groups and channel multipliers,
+    # 1-D and 3-D. The float64 reference pads explicitly (F.pad) and convolves with torch.
+    def same_pads(size, kernel, stride, dil, upper):
+        # ONNX Conv auto_pad: output ceil(in/stride), total pad split in half, the odd one at the
+        # end for SAME_UPPER and at the beginning for SAME_LOWER (Conv-11 spec text).
+        begin, end = [], []
+        for n, k, s, d in zip(size, kernel, stride, dil):
+            total = max(0, (-(-n // s) - 1) * s + (k - 1) * d + 1 - n)
+            small = total // 2
+            begin.append(small if upper else total - small)
+            end.append(total - small if upper else small)
+        return begin + end
+
+    def conv_nd_case(nm, notes, xshape, wshape, strides, pads, dilations=None, group=1, auto_pad=None):
+        nd = len(xshape) - 2
+        dilations = dilations or [1] * nd
+        w = const(nm, wshape, 0.4, "w")
+        attrs = dict(kernel_shape=wshape[2:], strides=strides, dilations=dilations, group=group)
+        if auto_pad:
+            attrs["auto_pad"] = auto_pad
+            pads = same_pads(xshape[2:], wshape[2:], strides, dilations, auto_pad == "SAME_UPPER")
+        else:
+            attrs["pads"] = pads
+        torch_pad = []
+        for a in reversed(range(nd)):  # F.pad lists the last axis first
+            torch_pad += [pads[a], pads[a + nd]]
+        conv = {1: F.conv1d, 2: F.conv2d, 3: F.conv3d}[nd]
+        case(nm, "Conv", notes, "Conv-11", normal(nm, xshape), [N("Conv", ["x", "w"], ["y"], **attrs)], {"w": w},
+             lambda x, c: conv(F.pad(x, torch_pad), c["w"], stride=strides, dilation=dilations, groups=group))
+
+    conv_nd_case("conv_s3_d2_asym_pads", "3x3 stride 3, dilation 2, pads [1,2,2,0], 11x10 (stride divides neither side)",
+                 [1, 2, 11, 10], [3, 2, 3, 3], [3, 3], [1, 2, 2, 0], dilations=[2, 2])
+    conv_nd_case("conv_s2_k4_group2", "4x4 stride 2, group 2 (4 in, 6 out), pads [1,2,2,1], 7x9",
+                 [1, 4, 7, 9], [6, 2, 4, 4], [2, 2], [1, 2, 2, 1], group=2)
+    conv_nd_case("conv_s3_k2_no_tap_phase", "2x2 stride 3, no pads, 8x7 (the third phase of each axis gets no tap)",
+                 [1, 2, 8, 7], [3, 2, 2, 2], [3, 3], [0, 0, 0, 0])
+    conv_nd_case("conv_s2_same_upper", "3x3 stride 2, auto_pad SAME_UPPER, 7x8",
+                 [1, 3, 7, 8], [4, 3, 3, 3], [2, 2], None, auto_pad="SAME_UPPER")
+    conv_nd_case("conv_s2_same_lower_k4", "4x4 stride 2, auto_pad SAME_LOWER, 6x7",
+                 [1, 2, 6, 7], [3, 2, 4, 4], [2, 2], None, auto_pad="SAME_LOWER")
+    conv_nd_case("conv_dw_mult2_s2_d2", "depthwise with channel multiplier 2 (group 3, 6 out), stride 2, dilation 2, pads 2, 9x9",
+                 [1, 3, 9, 9], [6, 1, 3, 3], [2, 2], [2, 2, 2, 2], dilations=[2, 2], group=3)
+    conv_nd_case("conv1d_s2_d3", "1-D kernel 3, stride 2, dilation 3, pads [4,1], length 15",
+                 [1, 2, 15], [2, 2, 3], [2], [4, 1], dilations=[3])
+    conv_nd_case("conv3d_s2", "3-D kernel 3, stride 2, pads [1,0,1,1,1,0], 5x6x7",
+                 [1, 2, 5, 6, 7], [3, 2, 3, 3, 3], [2, 2, 2], [1, 0, 1, 1, 1, 0])
+    conv_nd_case("conv_strides_3_1_pads_beyond", "3x3 strides [3,1], pads 3 (wider than the kernel reaches), 8x6",
+                 [1, 2, 8, 6], [3, 2, 3, 3], [3, 1], [3, 3, 3, 3])
+
     # ConvTranspose (opset 11 spec): output = stride*(in-1) + output_padding + ((k-1)*d+1) - pad_begin - pad_end;
     # W is [C_in, C_out/group, kH, kW]. Same semantics as torch conv_transpose2d.
     nm = "convtranspose_s2"
