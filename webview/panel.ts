@@ -54,6 +54,10 @@ export class Panel {
   private nextPinId = 1;
   /** The maps request the progress line belongs to. */
   private activeMapsId?: number;
+  /** When the active request's progress started moving, for the percent and time-left estimate. */
+  private clock?: { id: number; message: string; t0: number; done0: number };
+  /** The last progress of the active maps request (redrawn when the queued layer changes). */
+  private lastProgress?: { id: number; done: number; total: number; message?: string };
   private readonly saves = new Map<number, string>();
   private settingsId?: number;
   private labelsFileId?: number;
@@ -187,12 +191,20 @@ export class Panel {
       case 'init': return this.onInit(m);
       case 'mapsResult': {
         this.store.put(m.id, m.maps, m.final);
-        if (m.id === this.activeMapsId && m.final) { this.activeMapsId = undefined; this.clearProgress(); }
+        if (m.id === this.activeMapsId && m.final) {
+          this.activeMapsId = undefined;
+          this.clock = undefined;
+          this.lastProgress = undefined;
+          this.clearProgress();
+          // The shown layer came first; now the layer waiting in the queue, or the remaining stages.
+          this.ensureMaps();
+        }
         return this.render();
       }
       case 'progress': {
         const isActive = m.id === this.activeMapsId || this.saves.has(m.id) || m.id === this.settingsId;
         if (!isActive) return;
+        if (m.id === this.activeMapsId) { this.lastProgress = m; return this.showMapsProgress(); }
         const what = m.message ?? (this.saves.has(m.id) ? 'Saving…' : 'Computing maps…');
         this.status.show({ kind: 'progress', message: what, fraction: m.total > 0 ? m.done / m.total : undefined, onCancel: () => this.cancel(m.id) });
         return;
@@ -303,7 +315,8 @@ export class Panel {
     if (answered.length > 0 && answered.every((m) => !steps.includes(m.data.layer))) {
       return answered.map((m) => ({ id: m.data.layer, short: m.data.layerShort, map: m }));
     }
-    return steps.map((id) => ({ id, short: byId.get(id)?.short ?? id, map: entry?.maps.get(id) }));
+    const waiting = entry?.pendingId !== undefined;
+    return steps.map((id) => ({ id, short: byId.get(id)?.short ?? id, map: entry?.maps.get(id), queued: waiting && !entry?.asked.has(id) }));
   }
 
   private currentMap(): DecodedMap | undefined {
@@ -318,17 +331,55 @@ export class Panel {
     const key = selectionKey(this.sel);
     const entry = this.store.get(key);
     if (entry?.pendingId !== undefined) { this.activeMapsId = entry.pendingId; return; }
-    const wanted = this.steppingLayers().filter((l) => !entry?.asked.has(l));
-    if (wanted.length === 0 || (entry && this.sel.kind === 'detail' && entry.maps.size > 0)) return;
+    const all = this.steppingLayers().filter((l) => !entry?.asked.has(l));
+    if (all.length === 0 || (entry && this.sel.kind === 'detail' && entry.maps.size > 0)) return;
     if (this.activeMapsId !== undefined) this.cancel(this.activeMapsId, true);
     const { kind } = this.sel;
+    // A mismatch map sweeps every class, and a shallow layer costs most of the backward pass: the
+    // shown layer is asked alone first, the other stages after it (or when stepped to).
+    const wanted = kind === 'mismatch' && this.layerId && all.includes(this.layerId) && all.length > 1 ? [this.layerId] : all;
     const id = this.link.request({
       type: 'requestMaps', kind, variant: variantOf(this.sel), fact: this.sel.fact,
       foil: usesFoil(kind) ? this.sel.foil : undefined, layers: wanted, estimate: this.estimate,
     });
     this.store.begin(key, id, wanted);
     this.activeMapsId = id;
-    this.status.show({ kind: 'progress', message: 'Computing maps…', onCancel: () => this.cancel(id) });
+    this.clock = undefined;
+    this.lastProgress = undefined;
+    const byId = new Map((this.ctx.layers).map((l) => [l.id, l.short]));
+    const what = wanted.length === 1 ? `Computing the map at ${byId.get(wanted[0]) ?? wanted[0]}…` : 'Computing maps…';
+    this.status.show({ kind: 'progress', message: what, onCancel: () => this.cancel(id) });
+  }
+
+  /** The shown layer waits behind a request that does not include it (asked after it ends). */
+  private queuedLayer(): string | undefined {
+    const entry = this.store.get(selectionKey(this.sel));
+    if (!entry || entry.pendingId === undefined || !this.layerId || entry.asked.has(this.layerId)) return undefined;
+    if (!this.steppingLayers().includes(this.layerId)) return undefined;
+    return this.layerId;
+  }
+
+  /** Progress of the active maps request: words, percent, time left once it can be judged, and what waits. */
+  private showMapsProgress(): void {
+    const m = this.lastProgress;
+    const id = this.activeMapsId;
+    if (!m || id === undefined || m.id !== id) return;
+    const now = performance.now();
+    const message = m.message ?? 'Computing maps…';
+    // A new phase (probe, then exact) restarts the clock.
+    if (!this.clock || this.clock.id !== id || this.clock.message !== message || m.done < this.clock.done0) this.clock = { id, message, t0: now, done0: m.done };
+    const parts = [message];
+    if (m.total > 0) parts.push(`${Math.floor((100 * m.done) / m.total)}%`);
+    const moved = m.done - this.clock.done0;
+    const elapsed = (now - this.clock.t0) / 1000;
+    if (m.total > 0 && moved > 0 && elapsed >= 0.5 && m.done < m.total) parts.push(`about ${formatSeconds(((m.total - m.done) / moved) * elapsed)} left`);
+    const queued = this.queuedLayer();
+    if (queued) parts.push(`then ${this.shortOf(queued)} (queued)`);
+    this.status.show({ kind: 'progress', message: parts.join(' · '), fraction: m.total > 0 ? m.done / m.total : undefined, onCancel: () => this.cancel(id) });
+  }
+
+  private shortOf(layer: string): string {
+    return this.ctx?.layers.find((l) => l.id === layer)?.short ?? layer;
   }
 
   private cancel(id: number, quiet = false): void {
@@ -397,6 +448,12 @@ export class Panel {
 
   private setLayer(id: string): void {
     this.layerId = id;
+    // A layer not asked yet: asked now, or queued behind the running request (which then asks it next).
+    this.ensureMaps();
+    if (this.queuedLayer()) {
+      if (this.lastProgress) this.showMapsProgress();
+      else if (this.activeMapsId !== undefined) { const a = this.activeMapsId; this.status.show({ kind: 'progress', message: `Computing maps… · then ${this.shortOf(id)} (queued)`, onCancel: () => this.cancel(a) }); }
+    }
     this.render();
   }
 
@@ -546,7 +603,8 @@ export class Panel {
     const entry = this.store.get(selectionKey(this.sel));
     const map = this.currentMap();
     const range = map ? this.currentRange(map) : { lo: 0, hi: 1 };
-    this.viewer.show(map, range, this.prefs.colormap, this.prefs.opacity, this.showMap, entry?.pendingId !== undefined);
+    const queued = this.queuedLayer();
+    this.viewer.show(map, range, this.prefs.colormap, this.prefs.opacity, this.showMap, entry?.pendingId !== undefined, queued ? `Queued: the map at ${this.shortOf(queued)} is computed when the running request ends.` : undefined);
     this.note.textContent = map?.data.note ?? '';
     this.note.hidden = !map?.data.note;
     this.legend.root.hidden = !map;
@@ -588,4 +646,11 @@ export class Panel {
   }
 
   private savePrefs(): void { this.link.saveState(this.prefs); }
+}
+
+/** "12 s", "3 min": rounded up, for a time-left estimate. */
+export function formatSeconds(s: number): string {
+  if (!Number.isFinite(s) || s < 0) return '?';
+  if (s < 60) return `${Math.max(1, Math.ceil(s))} s`;
+  return `${Math.ceil(s / 60)} min`;
 }

@@ -258,23 +258,66 @@ describe('panel in headless Chromium', function () {
     assert.equal(await text(page, '.ff-question-text'), 'Why bolt?');
 
     // mismatch, gradient variant: the host's note about the last stage is shown with the map
+    // An all-class sweep asks for the shown layer alone first, then the other stages in one request.
     await page.keyboard.press('3');
-    await host.waitFor('requestMaps', 6);
+    const shownFirst = await host.waitFor('requestMaps', 6);
+    assert.deepEqual(shownFirst.layers, [STAGES[STAGES.length - 1].id]);
+    assert.deepEqual((await host.waitFor('requestMaps', 7)).layers, STAGES.slice(0, -1).map((s) => s.id));
     await page.keyboard.press('v');
-    assert.equal((await host.waitFor('requestMaps', 7)).variant, 'gradient');
+    assert.equal((await host.waitFor('requestMaps', 8)).variant, 'gradient');
+    await host.waitFor('requestMaps', 9);
     await page.waitForFunction((note) => document.querySelector('.ff-note')?.textContent === note, FLAT_NOTE);
-    assert.equal(await page.locator('.ff-depth-item.is-flat').count(), 1);
+    await page.waitForFunction(() => document.querySelectorAll('.ff-depth-item.is-flat').length === 1);
     // → from the mismatch view opens a per-class map: contrast, loss variant (DESIGN §4)
     await page.keyboard.press('ArrowRight');
-    const per = await host.waitFor('requestMaps', 8);
+    const per = await host.waitFor('requestMaps', 10);
     assert.deepEqual([per.kind, per.variant], ['contrast', 'loss']);
 
     // detail maps live at the input: the strip shows what the host answered
     await page.keyboard.press('5');
-    await host.waitFor('requestMaps', 9);
+    await host.waitFor('requestMaps', 11);
     await page.waitForSelector('.ff-depth-item[data-layer="input"]');
     assert.equal(await page.locator('.ff-depth-item').count(), 1);
     assert.match(await text(page, '.ff-question-text'), /^Which fine detail drives bolt\?$/);
+    assertClean(p);
+    await p.close();
+  });
+
+  it('mismatch over many classes: the shown layer first with percent and time left, a stepped-to layer queued, then the rest', async () => {
+    const p = await browser.open('vscode-light', { width: 1400, height: 900 });
+    const { page, host } = p;
+    await host.waitFor('requestMaps');
+    host.manualMaps = true;
+    const deepest = STAGES[STAGES.length - 1];
+    const before = STAGES[STAGES.length - 2];
+    await page.keyboard.press('3');
+    const first = await host.waitFor('requestMaps', 2);
+    assert.deepEqual(first.layers, [deepest.id], 'the shown layer alone first');
+    assert.equal(await text(page, '#ff-status .ff-status-text'), `Computing the map at ${deepest.short}…`);
+    await host.send({ type: 'progress', id: first.id, done: 2, total: 8, message: 'Computing: exact sweep over all 1000 classes' });
+    await new Promise((r) => setTimeout(r, 700));
+    await host.send({ type: 'progress', id: first.id, done: 4, total: 8, message: 'Computing: exact sweep over all 1000 classes' });
+    // 2 steps in ~0.7 s, 4 to go: about 2 s left (rounded up); the percent is the host's done/total.
+    await page.waitForFunction(() => /50%/.test(document.querySelector('#ff-status .ff-status-text')?.textContent ?? ''));
+    assert.match(await text(page, '#ff-status .ff-status-text'), /^Computing: exact sweep over all 1000 classes · 50% · about [1-3] s left$/);
+    // Stepping to a layer not asked yet: it waits behind the running request, and says so.
+    await page.keyboard.press('ArrowUp');
+    await page.waitForFunction(() => /queued/.test(document.querySelector('#ff-status .ff-status-text')?.textContent ?? ''));
+    assert.match(await text(page, '#ff-status .ff-status-text'), new RegExp(`· then ${before.short} \\(queued\\)$`));
+    assert.equal(host.ofType('requestMaps').length, 2, 'nothing new asked while one runs');
+    assert.equal(await page.locator('.ff-overlay-placeholder').getAttribute('data-state'), 'queued');
+    assert.equal(await page.locator(`.ff-depth-item[data-layer="${before.id}"]`).getAttribute('class'), 'ff-depth-item is-current is-queued');
+    await page.screenshot({ path: join(SHOTS, 'panel-queued-light-1400.png') });
+    // The first answer arrives: the queued layer is asked next, alone; then the remaining stages.
+    await host.answer(first);
+    const second = await host.waitFor('requestMaps', 3);
+    assert.deepEqual(second.layers, [before.id]);
+    await host.answer(second);
+    const rest = await host.waitFor('requestMaps', 4);
+    assert.deepEqual(rest.layers, STAGES.slice(0, -2).map((s) => s.id));
+    await host.answer(rest);
+    await page.waitForSelector('#ff-status[data-kind="idle"]', { state: 'attached' });
+    assert.equal(await page.locator('.ff-depth-item.is-queued, .ff-depth-item.is-pending').count(), 0);
     assertClean(p);
     await p.close();
   });

@@ -4,7 +4,7 @@ import type { ColormapName } from '../protocol';
 import type { DecodedMap } from '../map-store';
 import { paintRaw } from './paint';
 
-export interface DepthItem { id: string; short: string; map?: DecodedMap }
+export interface DepthItem { id: string; short: string; map?: DecodedMap; /** Not asked yet: computed after the running request. */ queued?: boolean }
 
 export class DepthStrip {
   readonly root: HTMLElement;
@@ -29,10 +29,10 @@ export class DepthStrip {
     items.forEach((it, i) => {
       const canvas = h('canvas', { class: 'ff-thumb', attrs: { 'aria-hidden': 'true' } });
       if (it.map) paintRaw(canvas, it.map, it.map.data.range, colormap);
-      const grid = it.map ? `${it.map.data.rawWidth}×${it.map.data.rawHeight}` : '…';
+      const grid = it.map ? `${it.map.data.rawWidth}×${it.map.data.rawHeight}` : it.queued ? 'queued' : '…';
       const current = it.id === currentId;
       const btn = h('button', {
-        class: `ff-depth-item${current ? ' is-current' : ''}${it.map ? '' : ' is-pending'}${it.map?.data.note ? ' is-flat' : ''}`,
+        class: `ff-depth-item${current ? ' is-current' : ''}${it.map ? '' : it.queued ? ' is-queued' : ' is-pending'}${it.map?.data.note ? ' is-flat' : ''}`,
         attrs: { type: 'button', 'data-layer': it.id, 'aria-current': current ? 'true' : undefined, title: it.map?.data.note ?? it.id,
           'aria-label': `Layer ${i + 1} of ${items.length}: ${it.short}, ${grid}${it.map?.data.note ? ', flat' : ''}` },
         on: { click: () => this.onSelect(it.id) },

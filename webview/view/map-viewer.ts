@@ -45,13 +45,15 @@ export class MapViewer {
   }
 
   /** Shows a map (or none). Repaints only when what is drawn changes; opacity is a CSS property. */
-  show(map: DecodedMap | undefined, range: DisplayRange, colormap: ColormapName, opacity: number, visible: boolean, waiting: boolean): void {
+  show(map: DecodedMap | undefined, range: DisplayRange, colormap: ColormapName, opacity: number, visible: boolean, waiting: boolean, queued?: string): void {
     const changed = map !== this.map;
     this.map = map;
     // Stepping with the keyboard changes the map under a still pointer: read the new map there.
     if (changed) this.readAtPointer();
     this.canvas.style.opacity = String(visible ? opacity : 0);
     this.placeholder.hidden = !(waiting && !map);
+    this.placeholder.textContent = queued ?? 'Computing the map…';
+    this.placeholder.dataset.state = queued ? 'queued' : 'computing';
     this.canvas.hidden = !map;
     if (!map || !this.image) return;
     const key = `${map.data.mapId}|${range.lo}|${range.hi}|${colormap}|${this.image.uri.length}|${this.image.width}`;

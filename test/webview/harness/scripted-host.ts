@@ -20,6 +20,8 @@ export class ScriptedHost {
   holdExact = false;
   /** When set, the next maps request only gets a progress message (to test Cancel). */
   stallNext = false;
+  /** When set, maps requests are only recorded: the test answers them with answer(). */
+  manualMaps = false;
   /** When set, the next request fails with this message. */
   failNext?: { message: string; hint?: string };
   private held: (() => Promise<void>)[] = [];
@@ -89,7 +91,16 @@ export class ScriptedHost {
     }
   }
 
+  /** Answers a recorded maps request with synthetic maps for every layer it asked. */
+  async answer(m: RequestMapsMessage, final = true, estimate?: MapData['estimate']): Promise<void> {
+    const q = { kind: m.kind, variant: m.variant, fact: m.fact, foil: m.foil };
+    const maps = m.layers.map((id) => synthMap(q, STAGES.find((s) => s.id === id) ?? { id, short: id, grid: 12 }, estimate));
+    for (const x of maps) this.sentMaps.set(x.mapId, x);
+    await this.send({ type: 'mapsResult', id: m.id, maps, final });
+  }
+
   private async answerMaps(m: RequestMapsMessage): Promise<void> {
+    if (this.manualMaps) return;
     const q = { kind: m.kind, variant: m.variant, fact: m.fact, foil: m.foil };
     if (this.stallNext) {
       this.stallNext = false;
