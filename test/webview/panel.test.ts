@@ -416,6 +416,31 @@ describe('panel in headless Chromium', function () {
     await p.close();
   });
 
+  for (const theme of ['vscode-light', 'vscode-dark'] as const) {
+    it(`at 1400×900 (${theme}) the legend and the depth strip are in view without scrolling, and progress moves nothing`, async () => {
+      const p = await browser.open(theme, { width: 1400, height: 900 });
+      const { page, host } = p;
+      await host.waitFor('requestMaps');
+      await page.waitForSelector('.ff-viewer canvas.ff-overlay[data-map-id]');
+      await settle(page);
+      const bottom = (sel: string) => page.locator(sel).evaluate((e) => e.getBoundingClientRect().bottom);
+      for (const sel of ['#ff-legend', '#ff-depth .ff-depth-list']) {
+        const b = await bottom(sel);
+        assert.ok(b <= 900, `${sel} ends at ${b.toFixed(0)} px, below the fold`);
+      }
+      await page.screenshot({ path: join(SHOTS, `panel-${theme.replace('vscode-', '')}-1400x900.png`) });
+      // The progress row has its place while idle: nothing below it moves when progress shows.
+      const top = () => page.locator('.ff-viewer').evaluate((e) => e.getBoundingClientRect().top);
+      const idleTop = await top();
+      host.stallNext = true;
+      await page.keyboard.press('ArrowRight');
+      await page.waitForSelector('#ff-status[data-kind="progress"]');
+      assert.equal(await top(), idleTop, 'the view did not jump');
+      assertClean(p);
+      await p.close();
+    });
+  }
+
   for (const [theme, width] of [['vscode-light', 1000], ['vscode-dark', 1000], ['vscode-high-contrast', 1000], ['vscode-light', 360], ['vscode-dark', 360], ['none', 700]] as const) {
     it(`screenshot: ${theme} at ${width} px`, async () => {
       const p = await browser.open(theme, { width, height: 900 });
