@@ -65,7 +65,7 @@ export function initMessage(view: ViewInfo, imageUri: string, settings: Factfoil
     image: panelImage(view, imageUri),
     labels: s.classes, prediction: view.prediction,
     ...(view.expected !== undefined ? { expected: view.expected } : {}),
-    layers, settings: s.settings,
+    layers, settings: s.settings, origin: s.origin, gray: s.gray,
     defaults: { kind: settings.defaultMapKind, colormap: settings.colormap, estimate: settings.estimate },
   };
 }
@@ -335,7 +335,7 @@ export class PanelRelay {
       this.view = v;
       this.post({
         type: 'settingsResult', id: m.id, settings: v.summary.settings, labels: v.summary.classes, prediction: v.prediction,
-        ...(v.expected !== undefined ? { expected: v.expected } : {}), image: panelImage(v, this.d.ui.imageUri(v)),
+        ...(v.expected !== undefined ? { expected: v.expected } : {}), image: panelImage(v, this.d.ui.imageUri(v)), origin: v.summary.origin,
       });
     } catch (e) {
       this.fail(m.id, e);

@@ -76,6 +76,8 @@ export class Panel {
   private readonly foilPicker: LabelPicker;
   private readonly viewer = new MapViewer();
   private readonly note = h('p', { class: 'ff-note', attrs: { role: 'note' } });
+  /** Says when preprocessing was guessed or labels generated, with the way to fix it. */
+  private readonly originFlag = h('div', { class: 'ff-origin', attrs: { id: 'ff-origin', role: 'note' } });
   private readonly legend = new Legend();
 
   private readonly opacity: HTMLInputElement;
@@ -149,7 +151,7 @@ export class Panel {
     ]);
     this.root = h('main', { class: 'ff-panel', attrs: { 'data-state': 'waiting' } }, [
       head,
-      h('section', { class: 'ff-question', attrs: { 'aria-live': 'polite' } }, [this.question, h('div', { class: 'ff-question-sub' }, [this.questionDetail, this.where, this.estimateBadge])]),
+      h('section', { class: 'ff-question', attrs: { 'aria-live': 'polite' } }, [this.question, h('div', { class: 'ff-question-sub' }, [this.questionDetail, this.where, this.estimateBadge]), this.originFlag]),
       this.status.root,
       h('div', { class: 'ff-controls' }, [kindBar, h('div', { class: 'ff-pickers' }, [this.factPicker.root, this.foilPicker.root, this.variantField])]),
       h('section', { class: 'ff-view', attrs: { 'aria-label': 'Map' } }, [this.viewer.root, this.note, display]),
@@ -161,6 +163,7 @@ export class Panel {
       this.keys,
     ]);
     this.legend.root.id = 'ff-legend';
+    this.originFlag.hidden = true;
     clear(mount);
     mount.append(this.root);
     this.question.textContent = 'Waiting for the model…';
@@ -226,7 +229,7 @@ export class Panel {
       case 'settingsResult': {
         if (m.id !== this.settingsId || !this.ctx) return;
         this.settingsId = undefined;
-        this.ctx = { ...this.ctx, settings: m.settings, labels: m.labels, prediction: m.prediction, expected: m.expected, image: m.image };
+        this.ctx = { ...this.ctx, settings: m.settings, labels: m.labels, prediction: m.prediction, expected: m.expected, image: m.image, ...(m.origin ? { origin: m.origin } : {}) };
         this.store.clear();
         this.activeMapsId = undefined;
         const d = defaultFactFoil(m.prediction, m.labels.length, m.expected);
@@ -511,7 +514,7 @@ export class Panel {
   }
 
   private openSettings(): void {
-    if (this.ctx) this.drawer.open(this.ctx.settings, this.prefs.includeRaw);
+    if (this.ctx) this.drawer.open(this.ctx.settings, this.prefs.includeRaw, this.ctx.gray === true);
   }
 
   private applySettings(s: ModelSettings): void {
@@ -630,6 +633,24 @@ export class Panel {
     this.saveButton.disabled = !map;
     this.pinButton.disabled = !map;
     this.root.dataset.kind = kind;
+    this.renderOrigin();
+  }
+
+  /** A visible flag when the model's preprocessing was guessed or its labels generated, with the drawer to fix it. */
+  private renderOrigin(): void {
+    const o = this.ctx?.origin;
+    const lines: string[] = [];
+    if (o?.preprocessing === 'guessed') lines.push('Preprocessing is guessed from the model\'s input shape: the maps are only as right as that guess. Set the size, scale, mean and std the model was trained with.');
+    if (o?.labels === 'generated') lines.push('No labels were found, so classes read "class 0", "class 1", …: choose a labels file (one label per line), or put labels.txt beside the model.');
+    this.originFlag.hidden = lines.length === 0;
+    this.originFlag.dataset.preprocessing = o?.preprocessing ?? '';
+    this.originFlag.dataset.labels = o?.labels ?? '';
+    if (lines.length === 0) { clear(this.originFlag); return; }
+    this.originFlag.replaceChildren(
+      h('span', { class: 'ff-origin-icon', text: '!', attrs: { 'aria-hidden': 'true' } }),
+      h('div', { class: 'ff-origin-text' }, lines.map((l) => h('p', { text: l }))),
+      h('button', { class: 'ff-button ff-button-small ff-button-secondary', text: 'Open Preprocessing and labels…', attrs: { id: 'ff-origin-fix', type: 'button' }, on: { click: () => this.openSettings() } }),
+    );
   }
 
   // ---- preferences ------------------------------------------------------------------------------

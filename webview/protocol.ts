@@ -96,6 +96,16 @@ export interface ModelSettings {
   labelsFile?: string;
 }
 
+/**
+ * Where the model's preprocessing and labels came from (the engine's ModelOriginSummary):
+ * preprocessing 'guessed' follows the input shape; labels 'generated' read `class 0` … `class N−1`.
+ */
+export interface ModelOrigin {
+  preprocessing: 'sidecar' | 'guessed';
+  labels: 'file' | 'sidecar' | 'beside' | 'metadata' | 'generated';
+  labelsFrom?: string;
+}
+
 export interface DisplayRange { lo: number; hi: number }
 
 export interface MapEstimate { mode: 'exact' | 'probe'; k?: number }
@@ -151,6 +161,10 @@ export interface InitMessage {
   /** Every explainable layer in graph order, shallow to deep (the depth strip keeps this order). */
   layers: LayerInfo[];
   settings: ModelSettings;
+  /** Where preprocessing and labels came from, so the panel can flag a guess. */
+  origin?: ModelOrigin;
+  /** The model takes one grey channel (the drawer shows GRAY for Channels). */
+  gray?: boolean;
   defaults?: PanelDefaults;
 }
 export interface MapsResultMessage { type: 'mapsResult'; id: number; maps: MapData[]; final: boolean }
@@ -164,6 +178,7 @@ export interface SettingsResultMessage {
   prediction: Prediction[];
   expected?: number;
   image: PanelImage;
+  origin?: ModelOrigin;
 }
 export interface LabelsFileResultMessage { type: 'labelsFileResult'; id: number; path?: string }
 export interface FailedMessage { type: 'failed'; id: number; message: string; hint?: string; cancelled?: boolean }
@@ -347,6 +362,9 @@ const preprocessing = obj<Preprocessing>({
   std: tuple3(POSITIVE),
 });
 const settings = obj<ModelSettings>({ preprocessing, labelsFile: opt(PATH) });
+const origin = obj<ModelOrigin>({
+  preprocessing: literal('sidecar', 'guessed'), labels: literal('file', 'sidecar', 'beside', 'metadata', 'generated'), labelsFrom: opt(PATH),
+});
 
 const layer = obj<LayerInfo>({ id: NAME, short: str(200, 1), gridWidth: opt(SIDE), gridHeight: opt(SIDE), stage: bool() });
 const estimateChoice = literal<EstimateChoice>('auto', 'exact', 'probe');
@@ -431,6 +449,8 @@ const toWebview: Check<ToWebview> = tagged<ToWebview>({
     expected: opt(CLASS_INDEX),
     layers: arr(layer, 10_000),
     settings,
+    origin: opt(origin),
+    gray: opt(bool()),
     defaults: opt(obj<PanelDefaults>({
       kind: opt(kind),
       contrastVariant: opt(literal(...CONTRAST_VARIANTS)),
@@ -446,7 +466,7 @@ const toWebview: Check<ToWebview> = tagged<ToWebview>({
   saveResult: obj<SaveResultMessage>({ type: literal('saveResult'), id: REQUEST_ID, files: arr(PATH, 100), message: MESSAGE }),
   settingsResult: refine(obj<SettingsResultMessage>({
     type: literal('settingsResult'), id: REQUEST_ID, settings, labels: arr(LABEL, MAX_CLASSES, 1),
-    prediction: arr(prediction, MAX_CLASSES), expected: opt(CLASS_INDEX), image,
+    prediction: arr(prediction, MAX_CLASSES), expected: opt(CLASS_INDEX), image, origin: opt(origin),
   }), (m) => indicesWithin(m.labels, m.prediction, m.expected)),
   labelsFileResult: obj<LabelsFileResultMessage>({ type: literal('labelsFileResult'), id: REQUEST_ID, path: opt(PATH) }),
   failed: obj<FailedMessage>({ type: literal('failed'), id: REQUEST_ID, message: MESSAGE, hint: opt(MESSAGE), cancelled: opt(bool()) }),

@@ -12,7 +12,7 @@ import type { Page } from 'playwright-core';
 import { formatValue } from '../../webview/map-render';
 import { Browser, OpenPanel, launchBrowser } from './harness/open-panel';
 import { FLAT_NOTE } from './harness/scripted-host';
-import { GEOMETRY, IMAGE_H, IMAGE_W, LABELS, MODEL, STAGES, WASHER, blobOf, idx, rawCellValue } from './harness/synthetic-scene';
+import { GEOMETRY, IMAGE_H, IMAGE_W, LABELS, MODEL, STAGES, WASHER, blobOf, idx, initMessage, rawCellValue } from './harness/synthetic-scene';
 
 const ROOT = join(__dirname, '..', '..');
 const SHOTS = join(ROOT, 'test-output', 'screenshots');
@@ -318,6 +318,73 @@ describe('panel in headless Chromium', function () {
     await host.answer(rest);
     await page.waitForSelector('#ff-status[data-kind="idle"]', { state: 'attached' });
     assert.equal(await page.locator('.ff-depth-item.is-queued, .ff-depth-item.is-pending').count(), 0);
+    assertClean(p);
+    await p.close();
+  });
+
+  it('a failed open leaves no half-built panel: its own title, no badges, actions off, the whole error wrapped', async () => {
+    const long = 'Cannot open belt-0417.png with parts-sorter.onnx: the model\'s node /block2/conv/Conv (op Conv) reads initializer block2.weight, which the file does not contain; the file may be truncated or exported with external data left behind';
+    const hint = 'Export the model again with its weights inside the .onnx file, or keep the external data file beside it, then open the panel again (command: Factfoil: Explain Image with Factfoil…).';
+    const p = await browser.open('vscode-light', { width: 700, height: 900 }, { message: long, hint });
+    const { page, host } = p;
+    assert.equal(await text(page, '#ff-title'), 'Not opened');
+    assert.equal(await text(page, '#ff-question'), 'This model and image could not be opened.');
+    assert.equal(await page.locator('.ff-estimate').isHidden(), true);
+    assert.equal(await page.locator('#ff-origin').isHidden(), true);
+    for (const sel of ['#ff-pin', '#ff-save', '#ff-open-settings', 'button[data-kind="mismatch"]', '#ff-fact', '#ff-foil', '#ff-trust-run', '#ff-trust-save']) {
+      assert.equal(await page.locator(sel).isDisabled(), true, `${sel} is disabled`);
+    }
+    // The whole message and its hint are on screen: wrapped, not cut.
+    assert.equal(await text(page, '#ff-status .ff-status-text'), long);
+    assert.equal(await text(page, '#ff-status .ff-status-hint'), hint);
+    const cut = await page.locator('#ff-status .ff-status-text, #ff-status .ff-status-hint').evaluateAll((els) => els.filter((e) => e.scrollWidth > e.clientWidth + 1).length);
+    assert.equal(cut, 0, 'no text cut off');
+    await page.keyboard.press('3');
+    await page.keyboard.press('p');
+    assert.equal(host.ofType('requestMaps').length, 0, 'keys ask nothing');
+    await page.screenshot({ path: join(SHOTS, 'panel-open-failed-light-700.png') });
+    assertClean(p);
+    await p.close();
+  });
+
+  it('flags guessed preprocessing and generated labels with the way to fix them; GRAY shows for a one-channel model', async () => {
+    const p = await browser.open('vscode-dark', { width: 1400, height: 900 });
+    const { page, host } = p;
+    await host.waitFor('requestMaps');
+    assert.equal(await page.locator('#ff-origin').isHidden(), true, 'no flag without a guess');
+    const init = await initMessage();
+    await host.send({ ...init, origin: { preprocessing: 'guessed', labels: 'generated' }, gray: true });
+    await page.waitForSelector('#ff-origin:not([hidden])');
+    assert.match(await text(page, '#ff-origin'), /Preprocessing is guessed from the model's input shape[\s\S]*No labels were found, so classes read "class 0"/);
+    await page.screenshot({ path: join(SHOTS, 'panel-guessed-dark-1400x900.png') });
+    await page.click('#ff-origin-fix');
+    await page.waitForSelector('dialog#ff-drawer[open]');
+    assert.equal(await page.locator('select[name="channels"]').inputValue(), 'GRAY');
+    assert.deepEqual(await page.locator('select[name="channels"] option').allTextContents(), ['RGB', 'BGR', 'GRAY']);
+    await page.click('#ff-drawer-apply');
+    const upd = await host.waitFor('updateSettings');
+    assert.equal(upd.settings.preprocessing.channels, init.settings.preprocessing.channels, 'the order sent back is the one the host gave');
+    // The host answers with preprocessing and labels from the new sidecar: the flag goes.
+    await page.waitForSelector('#ff-origin[hidden]', { state: 'attached' });
+    assertClean(p);
+    await p.close();
+  });
+
+  it('the foil picker lists the fact but will not take it, so the question and the value agree', async () => {
+    const p = await browser.open('vscode-light', { width: 1000, height: 900 });
+    const { page, host } = p;
+    await host.waitFor('requestMaps');
+    await page.click('#ff-foil');
+    await page.fill('#ff-foil', 'wash');
+    const option = page.locator('[aria-label="Foil classes"] [role=option]', { hasText: 'washer' });
+    assert.equal(await option.getAttribute('aria-disabled'), 'true');
+    assert.match(await option.innerText(), /fact/);
+    await option.dispatchEvent('mousedown');
+    await page.keyboard.press('Enter');
+    await settle(page);
+    assert.equal(await page.locator('#ff-foil').inputValue(), 'bearing', 'the foil stays what the question says');
+    assert.equal(await text(page, '#ff-question'), 'Why washer, not bearing?');
+    assert.equal(host.ofType('requestMaps').length, 1, 'nothing asked');
     assertClean(p);
     await p.close();
   });

@@ -40,7 +40,9 @@ export class SettingsDrawer {
   private readonly width = numberInput('1', 'width');
   private readonly height = numberInput('1', 'height');
   private readonly resize = select(RESIZE_MODES, (v) => RESIZE_WORDS[v], 'resize');
-  private readonly channels = select(['RGB', 'BGR'] as const, (v) => v, 'channels');
+  private readonly channels = select(['RGB', 'BGR', 'GRAY'] as const, (v) => v, 'channels');
+  /** A one-channel model: Channels reads GRAY (set by the model, not here); the order sent back is kept. */
+  private gray?: { keep: 'RGB' | 'BGR' };
   private readonly layout = select(['NCHW', 'NHWC'] as const, (v) => v, 'layout');
   private readonly scale = numberInput('any', 'scale');
   private readonly mean = [0, 1, 2].map((c) => numberInput('any', `mean${c}`));
@@ -85,12 +87,17 @@ export class SettingsDrawer {
     this.root = h('dialog', { class: 'ff-drawer', attrs: { id: 'ff-drawer', 'aria-label': 'Preprocessing and labels' } }, [form]);
   }
 
-  open(settings: ModelSettings, includeRaw: boolean): void {
+  open(settings: ModelSettings, includeRaw: boolean, gray = false): void {
     const p = settings.preprocessing;
+    this.gray = gray ? { keep: p.channels } : undefined;
+    const grayOption = this.channels.querySelector<HTMLOptionElement>('option[value="GRAY"]')!;
+    grayOption.disabled = !gray;
+    for (const o of Array.from(this.channels.options)) if (o.value !== 'GRAY') o.disabled = gray;
+    this.channels.title = gray ? 'The model takes one grey channel (luma of the image): set by the model' : 'GRAY is for models with one input channel';
     this.width.value = String(p.width);
     this.height.value = String(p.height);
     this.resize.value = p.resize;
-    this.channels.value = p.channels;
+    this.channels.value = gray ? 'GRAY' : p.channels;
     this.layout.value = p.layout;
     this.scale.value = String(p.scale);
     p.mean.forEach((v, c) => { this.mean[c].value = String(v); });
@@ -128,7 +135,7 @@ export class SettingsDrawer {
     if (typeof bad === 'string') return bad;
     const [w, hgt, scale, m0, m1, m2, s0, s1, s2] = values as number[];
     const preprocessing: Preprocessing = {
-      width: w, height: hgt, resize: this.resize.value as ResizeMode, channels: this.channels.value as 'RGB' | 'BGR',
+      width: w, height: hgt, resize: this.resize.value as ResizeMode, channels: this.gray ? this.gray.keep : this.channels.value as 'RGB' | 'BGR',
       layout: this.layout.value as 'NCHW' | 'NHWC', scale, mean: [m0, m1, m2], std: [s0, s1, s2],
     };
     const labelsFile = this.labelsFile.value.trim();

@@ -31,6 +31,8 @@ export class TrustView {
   private runningId?: number;
   /** The panel has a model and image open (false before init and after a failed open). */
   private opened = false;
+  /** The open failed before any init: the section says so and stays off. */
+  private failedOpen = false;
   /** The report on screen and the request id the host keeps it under (for Save). */
   private shown?: { id: number; report: TrustReport };
   private saveId?: number;
@@ -71,6 +73,7 @@ export class TrustView {
 
   /** Updates the line saying what will be checked (call when the panel's question changes). */
   refresh(): void {
+    if (this.failedOpen && !this.opened) return;
     const q = this.question();
     const layer = this.layers.find((l) => l.id === q.layer);
     const fact = this.labels[q.fact] ?? `class ${q.fact}`;
@@ -111,6 +114,7 @@ export class TrustView {
     if (m.type === 'settingsResult') { this.labels = m.labels; this.refresh(); return; }
     if (m.type === 'notice' && m.level === 'error' && !this.opened) {
       // The open failed (the panel shows why): nothing to check until it is opened again.
+      this.failedOpen = true;
       this.target.textContent = 'Nothing to check: the model and image could not be opened.';
       for (const b of Array.from(this.root.querySelectorAll<HTMLButtonElement | HTMLInputElement>('button, input'))) b.disabled = true;
       return;

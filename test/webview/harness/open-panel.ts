@@ -20,7 +20,8 @@ export interface OpenPanel {
 }
 
 export interface Browser {
-  open(theme: ThemeKind, viewport: { width: number; height: number }): Promise<OpenPanel>;
+  /** `failOpen`: the host answers ready with this error instead of init. */
+  open(theme: ThemeKind, viewport: { width: number; height: number }, failOpen?: { message: string; hint?: string }): Promise<OpenPanel>;
   close(): Promise<void>;
 }
 
@@ -31,10 +32,11 @@ export async function launchBrowser(): Promise<Browser> {
   const server = await startPageServer();
   const init = await initMessage();
   return {
-    async open(theme, viewport) {
+    async open(theme, viewport, failOpen) {
       const page = await context.newPage();
       await page.setViewportSize(viewport);
       const host = new ScriptedHost(page, init);
+      if (failOpen) host.failOpen = failOpen;
       await host.attach();
       const pageErrors: string[] = [];
       const consoleErrors: string[] = [];
@@ -42,7 +44,7 @@ export async function launchBrowser(): Promise<Browser> {
       page.on('console', (m) => { if (m.type() === 'error') consoleErrors.push(m.text()); });
       await page.goto(server.url(theme));
       await host.waitFor('ready');
-      await page.waitForSelector('.ff-panel[data-state="ready"]');
+      await page.waitForSelector(`.ff-panel[data-state="${failOpen ? 'failed' : 'ready'}"]`);
       return { page, host, pageErrors, consoleErrors, close: () => page.close() };
     },
     async close() {

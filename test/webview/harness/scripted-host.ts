@@ -20,6 +20,8 @@ export class ScriptedHost {
   holdExact = false;
   /** When set, the next maps request only gets a progress message (to test Cancel). */
   stallNext = false;
+  /** When set, ready is answered with this error notice instead of init (a model that fails to open). */
+  failOpen?: { message: string; hint?: string };
   /** When set, maps requests are only recorded: the test answers them with answer(). */
   manualMaps = false;
   /** When set, the next request fails with this message. */
@@ -74,7 +76,7 @@ export class ScriptedHost {
       return;
     }
     switch (m.type) {
-      case 'ready': return this.send(this.init);
+      case 'ready': return this.failOpen ? this.send({ type: 'notice', level: 'error', ...this.failOpen }) : this.send(this.init);
       case 'requestMaps': return this.answerMaps(m);
       case 'save': {
         const map = this.sentMaps.get(m.mapId);
@@ -85,6 +87,8 @@ export class ScriptedHost {
         return this.send({
           type: 'settingsResult', id: m.id, settings: m.settings, labels: this.init.labels,
           prediction: this.init.prediction.map((p, i) => ({ ...p, p: i === 0 ? 0.55 : p.p })), expected: this.init.expected, image: this.init.image,
+          // Writing settings makes the sidecar: preprocessing and labels now come from it.
+          origin: { preprocessing: 'sidecar', labels: 'sidecar' },
         });
       case 'pickLabelsFile': return this.send({ type: 'labelsFileResult', id: m.id, path: '/work/parts/labels-v2.txt' });
       default: return undefined;
