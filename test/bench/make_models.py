@@ -1,13 +1,14 @@
 """Bench models, written to a git-ignored cache folder (argument 1, e.g. .cache/bench):
 
-- resnet18.onnx: torchvision ResNet-18 (random weights from torch.manual_seed(0), 224x224,
-  1000 classes, eval mode, opset 17). The residual stage outputs are named stage1..stage4 by
-  exporting them as extra graph outputs and then removing them from graph.output with the onnx
-  API, so the tensors keep their names inside the graph.
+- resnet18.onnx, resnet50.onnx: torchvision ResNet-18 and ResNet-50 (random weights from
+  torch.manual_seed(0), 224x224, 1000 classes, eval mode, opset 17), with their state dicts for
+  the peer (.pt). The residual stage outputs are named stage1..stage4 by exporting them as extra
+  graph outputs and then removing them from graph.output with the onnx API, so the tensors keep
+  their names inside the graph. ResNet-50 (about 100 MB) is made here at bench time, never committed.
 - input.npy: the seeded input, float32 [1,3,224,224] (torch.manual_seed(1), standard normal).
 - matmul.onnx: one dense float32 MatMul [N,N]x[N,N] with both operands as inputs, to measure the
   machine's dense-MatMul rate through onnxruntime.
-- meta.json: multiply-accumulate counts per part of the network (from the ONNX shapes), used to
+- meta.json: multiply-accumulate counts per part of each network (from the ONNX shapes), used to
   turn sweep times into GFLOP/s.
 """
 import json
@@ -39,13 +40,13 @@ class WithStages(torch.nn.Module):
         return z, s1, s2, s3, s4
 
 
-def make_resnet(out):
+def make_resnet(out, arch="resnet18"):
     torch.manual_seed(0)
-    net = torchvision.models.resnet18(weights=None, num_classes=1000).eval()
+    net = getattr(torchvision.models, arch)(weights=None, num_classes=1000).eval()
     torch.manual_seed(1)
     x = torch.randn(1, 3, 224, 224)
     names = ["logits", "stage1", "stage2", "stage3", "stage4"]
-    path = os.path.join(out, "resnet18.onnx")
+    path = os.path.join(out, f"{arch}.onnx")
     with torch.no_grad():
         torch.onnx.export(WithStages(net), (x,), path, input_names=["input"], output_names=names,
                           opset_version=17, do_constant_folding=True)
@@ -55,7 +56,7 @@ def make_resnet(out):
     onnx.checker.check_model(model)
     onnx.save(model, path)
     np.save(os.path.join(out, "input.npy"), x.numpy().astype(np.float32))
-    torch.save(net.state_dict(), os.path.join(out, "resnet18.pt"))
+    torch.save(net.state_dict(), os.path.join(out, f"{arch}.pt"))
     return model
 
 
@@ -107,12 +108,15 @@ def main():
     out = sys.argv[1]
     os.makedirs(out, exist_ok=True)
     model = make_resnet(out)
+    model50 = make_resnet(out, "resnet50")
     make_matmul(out)
-    rows = conv_macs(model)
+    rows, rows50 = conv_macs(model), conv_macs(model50)
+    stages = ["stage1", "stage2", "stage3", "stage4"]
     meta = {
         "torch": torch.__version__, "torchvision": torchvision.__version__, "onnx": onnx.__version__,
         "forward_macs": sum(r["macs"] for r in rows),
-        "macs_above": {s: macs_above(model, rows, s) for s in ["stage1", "stage2", "stage3", "stage4"]},
+        "macs_above": {s: macs_above(model, rows, s) for s in stages},
+        "resnet50": {"forward_macs": sum(r["macs"] for r in rows50), "macs_above": {s: macs_above(model50, rows50, s) for s in stages}},
         "matmul_n": MATMUL_N,
     }
     with open(os.path.join(out, "meta.json"), "w") as f:

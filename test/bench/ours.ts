@@ -4,7 +4,8 @@
  *
  * Usage: npx tsx test/bench/ours.ts <cache dir> <group> <repeats>
  * Groups: main (everything timed), rss-exact (one exact sweep, for peak RSS), rss-base (prepare
- * and one forward only: the floor the sweep's RSS sits on). Prints one JSON object on stdout.
+ * and one forward only: the floor the sweep's RSS sits on), resnet50 (first map and exact sweep
+ * on ResNet-50). Prints one JSON object on stdout.
  */
 import * as path from 'node:path';
 import * as ort from 'onnxruntime-node';
@@ -58,9 +59,9 @@ function relL2(a: ArrayLike<number>, b: ArrayLike<number>): number {
   return Math.sqrt(num / den);
 }
 
-async function setup(cache: string): Promise<{ engine: Engine; pm: PreparedModel; x: Float32Array }> {
+async function setup(cache: string, arch = 'resnet18'): Promise<{ engine: Engine; pm: PreparedModel; x: Float32Array }> {
   const engine = new Engine({ threads: THREADS });
-  const pm = await engine.prepare(loadModel(path.join(cache, 'resnet18.onnx')), [1, 3, 224, 224]);
+  const pm = await engine.prepare(loadModel(path.join(cache, `${arch}.onnx`)), [1, 3, 224, 224]);
   const x = (await readNpy(path.join(cache, 'input.npy'))).data as Float32Array;
   return { engine, pm, x };
 }
@@ -90,9 +91,36 @@ async function matmulGflops(cache: string, n: number, repeats: number): Promise<
   return { times, gflops: (2 * n ** 3) / (best / 1e3) / 1e9 };
 }
 
+/** ResNet-50: the first map at every stage and the exact sweep at stage2 (`sweeps` times). */
+async function resnet50(cache: string, repeats: number, sweeps: number): Promise<Record<string, unknown>> {
+  const res: Record<string, unknown> = {};
+  const s = await setup(cache, 'resnet50');
+  await s.engine.scores(s.pm, s.x);
+  const firstMap = () => explainPrediction(s.engine, s.pm, s.x, 'contrast', STAGES);
+  let t = performance.now();
+  await firstMap();
+  res.first_map_cold_ms = performance.now() - t;
+  res.first_map_all_stages = (await timed(repeats, firstMap)).times;
+  t = performance.now();
+  headBasis(s.pm);
+  res.head_basis_ms = performance.now() - t;
+  await probe(s, 8, 1);
+  res.mismatch_chunk = seedChunkSize(s.pm, [LAYER]);
+  const ex = await timed(sweeps, () => exact(s));
+  res.mismatch_exact_layer2 = ex.times;
+  res.mismatch_seeds = ex.out[0].estimate?.seeds ?? null;
+  res.map = Array.from(ex.out[0].raw.data);
+  await s.engine.dispose();
+  return res;
+}
+
 async function main(): Promise<void> {
-  const [cache, group, repeatsArg] = process.argv.slice(2);
+  const [cache, group, repeatsArg, sweepsArg] = process.argv.slice(2);
   const repeats = Number(repeatsArg ?? 5);
+  if (group === 'resnet50') {
+    console.log(JSON.stringify(await resnet50(cache, repeats, Number(sweepsArg ?? 1))));
+    return;
+  }
   if (group === 'rss-base' || group === 'rss-exact') {
     const s = await setup(cache);
     await s.engine.scores(s.pm, s.x);

@@ -1,7 +1,7 @@
 """The PyTorch peer: what an engineer would write in PyTorch for the same questions, on the
 same ResNet-18 weights and input as the ONNX model (made by make_models.py).
 
-Usage: peer.py <cache dir> <group> <repeats> [chunks]
+Usage: peer.py <cache dir> <group>[:<arch>] <repeats> [chunks]   (arch resnet18, the default, or resnet50)
 Groups (each run in its own process so its peak RSS is its own):
   basic    forward; first map at every stage (forward + backward with hooks + Grad-CAM contrast)
   batched  exact mismatch at stage2 via torch.autograd.grad(..., is_grads_batched=True)
@@ -22,9 +22,9 @@ import torchvision
 torch.set_num_threads(2)
 
 
-def load(cache):
-    net = torchvision.models.resnet18(weights=None, num_classes=1000)
-    net.load_state_dict(torch.load(os.path.join(cache, "resnet18.pt")))
+def load(cache, arch="resnet18"):
+    net = getattr(torchvision.models, arch)(weights=None, num_classes=1000)
+    net.load_state_dict(torch.load(os.path.join(cache, f"{arch}.pt")))
     net.eval()
     x = torch.from_numpy(np.load(os.path.join(cache, "input.npy")))
     return net, x
@@ -171,9 +171,10 @@ def sweep_group(fn, net, x, repeats, chunks):
 
 
 def main():
-    cache, group, repeats = sys.argv[1], sys.argv[2], int(sys.argv[3])
+    cache, repeats = sys.argv[1], int(sys.argv[3])
+    group, _, arch = sys.argv[2].partition(":")
     chunks = [int(c) for c in sys.argv[4].split(",")] if len(sys.argv) > 4 else [50]
-    net, x = load(cache)
+    net, x = load(cache, arch or "resnet18")
     for prm in net.parameters():
         prm.requires_grad_(False)  # only activation gradients are asked for
     if group == "basic":

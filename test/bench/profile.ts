@@ -2,7 +2,8 @@
  * Where the time of one seed chunk goes: runs the mismatch plan of the bench ResNet-18 at one
  * layer with onnxruntime's profiler on and prints per-op-type totals (and the heaviest nodes).
  *
- * Usage: npx tsx test/bench/profile.ts [cache dir] [layer] [seeds per run] [runs]
+ * Usage: npx tsx test/bench/profile.ts [cache dir] [layer] [seeds per run] [runs] [resnet18|resnet50] [product|polyphase]
+ * (polyphase: strided Conv input gradients as polyphase-conv.ts builds them, for comparison)
  * (after `npm run bench -- --quick` has made .cache/bench). Prints a table on stdout.
  */
 import { readdirSync, readFileSync, rmSync } from 'node:fs';
@@ -14,6 +15,8 @@ import { loadModel } from '../../core/model/load';
 import { composePlan } from '../../core/plan/compose';
 import { readNpy } from '../../core/io/npy';
 import { mulberry32 } from '../../core/metrics/random';
+import { polyphaseConv, withConvRule } from './polyphase-conv';
+import { gradientRules } from '../../core/autodiff/rules';
 
 interface Event { cat: string; name: string; dur: number; args?: { op_name?: string } }
 
@@ -60,12 +63,13 @@ function table(events: Event[], runs: number, title: string): void {
 }
 
 async function main(): Promise<void> {
-  const [cache = '.cache/bench', layer = 'stage2', kArg = '100', runsArg = '3'] = process.argv.slice(2);
+  const [cache = '.cache/bench', layer = 'stage2', kArg = '100', runsArg = '3', arch = 'resnet18', form = 'product'] = process.argv.slice(2);
   const k = Number(kArg), runs = Number(runsArg);
   const engine = new Engine({ threads: 2 });
-  const pm = await engine.prepare(loadModel(path.join(cache, 'resnet18.onnx')), [1, 3, 224, 224]);
+  const pm = await engine.prepare(loadModel(path.join(cache, `${arch}.onnx`)), [1, 3, 224, 224]);
   const x = (await readNpy(path.join(cache, 'input.npy'))).data as Float32Array;
-  const plan = composePlan(pm, { passes: [{ relu: 'standard', layers: [layer], heads: ['mismatch'] }] });
+  const rule = form === 'polyphase' ? polyphaseConv : gradientRules.Conv;
+  const plan = await withConvRule(rule, async () => composePlan(pm, { passes: [{ relu: 'standard', layers: [layer], heads: ['mismatch'] }] }));
   const R = pm.scores.numClasses;
   const rand = mulberry32(1);
   const base = Float32Array.from({ length: k * R }, () => (rand() < 0.5 ? -1 : 1));
@@ -79,7 +83,7 @@ async function main(): Promise<void> {
 
   };
   feeds[plan.sweepFrom!] = new ort.Tensor('int64', BigInt64Array.of(0n), [1]);
-  table(await profiled(plan.bytes, feeds, runs, 'all'), runs, `${layer}, ${k} seeds, one session`);
+  table(await profiled(plan.bytes, feeds, runs, 'all'), runs, `${arch} ${layer}, ${k} seeds, ${form}, one session`);
   await engine.dispose();
 }
 

@@ -1,6 +1,6 @@
-// `npm run bench -- [--quick] [--json <file>]`: ours (onnxruntime-node, 2 threads) against the
-// PyTorch peer (Debian python3-torch, 2 threads) on the same ResNet-18 weights and input, in the
-// same run. Each side's groups run in child processes so each peak RSS is its own.
+// `npm run bench -- [--quick] [--no-resnet50] [--json <file>]`: ours (onnxruntime-node, 2 threads)
+// against the PyTorch peer (Debian python3-torch, 2 threads) on the same ResNet-18 (and ResNet-50)
+// weights and input, in the same run. Each side's groups run in child processes so each peak RSS is its own.
 // Prints medians with min–max and ours/peer; never fails on timing.
 import { spawnSync } from 'node:child_process';
 import { existsSync, mkdirSync, readFileSync, statSync, writeFileSync } from 'node:fs';
@@ -15,6 +15,7 @@ const PY = '/usr/bin/python3';
 
 const args = process.argv.slice(2);
 const quick = args.includes('--quick');
+const withResnet50 = !args.includes('--no-resnet50');
 const jsonAt = args.indexOf('--json');
 const jsonFile = jsonAt >= 0 ? args[jsonAt + 1] : undefined;
 if (jsonAt >= 0 && !jsonFile) { console.error('--json needs a file name'); process.exit(2); }
@@ -45,10 +46,10 @@ if (!torchOk) {
 
 const generator = path.join(here, 'make_models.py');
 const made = path.join(cache, 'meta.json');
-if (!existsSync(made) || statSync(made).mtimeMs < statSync(generator).mtimeMs) {
+if (!existsSync(made) || statSync(made).mtimeMs < statSync(generator).mtimeMs || !existsSync(path.join(cache, 'resnet50.onnx'))) {
   if (!torchOk) { log('No bench model in .cache/bench and no PyTorch to make one: stopping.'); process.exit(1); }
   mkdirSync(cache, { recursive: true });
-  if (!run(PY, [generator, cache], 'making ResNet-18, input and MatMul models (.cache/bench)')) process.exit(1);
+  if (!run(PY, [generator, cache], 'making ResNet-18, ResNet-50, input and MatMul models (.cache/bench)')) process.exit(1);
 }
 const meta = JSON.parse(readFileSync(made, 'utf8'));
 
@@ -64,6 +65,13 @@ const peer = torchOk ? {
   vmap: run(PY, [peerPy, cache, 'vmap', String(sweepRepeats), vmapChunks], `peer: functorch.vmap over vjp (chunks ${vmapChunks})`),
   loop: quick ? null : run(PY, [peerPy, cache, 'loop', '1'], 'peer: per-class loop of 1000 autograd.grad calls'),
   mm: run(PY, ['-c', PEER_MATMUL(meta.matmul_n, repeats)], 'peer: dense MatMul through torch'),
+} : {};
+// ResNet-50: the first map and the exact sweep at stage2, against the peer's same questions.
+const ours50 = withResnet50 ? run(tsx, [oursTs, cache, 'resnet50', String(repeats), String(sweepRepeats)], 'ours: ResNet-50 first map and exact sweep') : null;
+const peer50 = torchOk && withResnet50 ? {
+  basic: run(PY, [peerPy, cache, 'basic:resnet50', String(repeats)], 'peer: ResNet-50 forward, first map'),
+  batched: run(PY, [peerPy, cache, 'batched:resnet50', String(sweepRepeats), quick ? '50' : '25,50'], 'peer: ResNet-50 autograd.grad is_grads_batched'),
+  vmap: run(PY, [peerPy, cache, 'vmap:resnet50', String(sweepRepeats), quick ? '50' : '50,100'], 'peer: ResNet-50 functorch.vmap over vjp'),
 } : {};
 
 function PEER_MATMUL(n, reps) {
@@ -100,9 +108,10 @@ function metric(name, oursTimes, peerTimes, unit, extra = {}) {
   };
 }
 
-const bestSweep = [peer.batched, peer.vmap].filter((x) => x && x.times)
-  .map((x) => ({ ...x, path: x === peer.batched ? 'autograd.grad(is_grads_batched=True)' : 'functorch.vmap(vjp)', med: median(x.times) }))
+const fastest = (p) => [p.batched, p.vmap].filter((x) => x && x.times)
+  .map((x) => ({ ...x, path: x === p.batched ? 'autograd.grad(is_grads_batched=True)' : 'functorch.vmap(vjp)', med: median(x.times) }))
   .sort((a, b) => a.med - b.med)[0];
+const bestSweep = fastest(peer);
 
 metric('forward', ours?.forward, peer.basic?.forward, 'ms');
 metric('first_map_all_stages', ours?.first_map_all_stages, peer.basic?.first_map_all_stages, 'ms', {
@@ -136,6 +145,16 @@ metric('peak_rss_mib', oursRss?.peak_rss_mib ?? null, bestSweep?.peak_rss_mib ??
   ours_floor_mib: oursBase?.peak_rss_mib ?? null,
   peer_loop_mib: peer.loop?.peak_rss_mib ?? null,
 });
+if (withResnet50) {
+  const best50 = fastest(peer50);
+  metric('resnet50_first_map_all_stages', ours50?.first_map_all_stages, peer50.basic?.first_map_all_stages, 'ms', { ours_cold_ms: ours50?.first_map_cold_ms ?? null });
+  metric('resnet50_mismatch_exact_layer2', ours50?.mismatch_exact_layer2, best50?.times, 'ms', {
+    peer_path: best50?.path ?? null, peer_chunk: best50?.chunk ?? null, ours_seeds: ours50?.mismatch_seeds ?? null, ours_chunk_rows: ours50?.mismatch_chunk ?? null,
+    peer_batched_median: peer50.batched?.times ? median(peer50.batched.times) : null, peer_vmap_median: peer50.vmap?.times ? median(peer50.vmap.times) : null,
+    map_pearson_ours_vs_peer: ours50?.map && best50?.map ? pearson(ours50.map, best50.map) : null,
+    ours_gflops: ours50?.mismatch_seeds ? ((ours50.mismatch_seeds + 2) * 2 * meta.resnet50.macs_above.stage2) / (median(ours50.mismatch_exact_layer2) / 1e3) / 1e9 : null,
+  });
+}
 metric('matmul_gflops', ours?.matmul?.gflops ?? null, peer.mm?.gflops ?? null, 'GFLOP/s', { n: meta.matmul_n, what: 'dense float32 MatMul N×N·N×N, best of repeats, 2 threads; ours through onnxruntime, peer torch.mm' });
 // Backward MACs of one seed from the scores down to stage2: the data gradient of every Conv/Gemm
 // above stage2 costs the same MACs as its forward (ConvTranspose or flipped Conv, same operand
@@ -154,7 +173,8 @@ const out = {
   date: new Date().toISOString(), command: `npm run bench -- ${args.join(' ')}`.trim(),
   machine: { cpus: os.cpus().length, model: os.cpus()[0]?.model, mem_gib: os.totalmem() / 2 ** 30, node: process.version, threads_each_side: 2 },
   versions: { onnxruntime: ours?.ort_version ?? null, torch: meta.torch, torchvision: meta.torchvision, onnx: meta.onnx },
-  model: 'torchvision ResNet-18, random weights (seed 0), 224x224, 1000 classes, opset 17; input seed 1',
+  model: 'torchvision ResNet-18 (and ResNet-50), random weights (seed 0), 224x224, 1000 classes, opset 17; input seed 1',
+  load_average: os.loadavg(),
   results,
   probe_curve: ours?.probe_curve?.map((c) => ({ ...c, pearson_mean: c.pearson.reduce((a, b) => a + b, 0) / c.pearson.length, rel_l2_mean: c.rel_l2.reduce((a, b) => a + b, 0) / c.rel_l2.length })) ?? null,
   cold: { head_basis_ms: ours?.head_basis_ms ?? null, head_rank: ours?.head_rank ?? null, prepare_ms: ours?.prepare_ms ?? null, forward_cold_ms: ours?.forward_cold_ms ?? null, first_map_cold_ms: ours?.first_map_cold_ms ?? null, mismatch_compile_ms: ours?.mismatch_compile_ms ?? null },
@@ -170,4 +190,7 @@ const p = results.mismatch_probe32_layer2;
 console.log(`\nprobe K=32: Pearson ${f(p.pearson_vs_exact)}, rel L2 ${f(p.rel_l2_vs_exact)} vs exact; ${f(p.fraction_of_exact)} of exact time`);
 if (out.probe_curve) for (const c of out.probe_curve) console.log(`  K=${String(c.k).padStart(3)}  Pearson ${c.pearson_mean.toFixed(4)}  rel L2 ${c.rel_l2_mean.toFixed(4)}  (${c.seeds.length} seeds)`);
 console.log(`peer best exact path: ${results.mismatch_exact_layer2.peer_path ?? '—'} at chunk ${results.mismatch_exact_layer2.peer_chunk ?? '—'}`);
+const r50 = results.resnet50_mismatch_exact_layer2;
+if (r50) console.log(`ResNet-50 exact: ours ${r50.ours_seeds ?? '—'} seeds, peer ${r50.peer_path ?? '—'} at chunk ${r50.peer_chunk ?? '—'}; map Pearson ours vs peer ${r50.map_pearson_ours_vs_peer == null ? '—' : r50.map_pearson_ours_vs_peer.toFixed(6)}`);
+console.log(`load average at the end (1, 5, 15 min): ${os.loadavg().map((v) => v.toFixed(2)).join(', ')}`);
 if (jsonFile) { writeFileSync(jsonFile, JSON.stringify(out, null, 1) + '\n'); log(`wrote ${jsonFile}`); }

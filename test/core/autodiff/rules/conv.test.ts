@@ -1,7 +1,9 @@
 /**
  * The Conv input gradient in the geometries the flipped-kernel form must get right (stride 1
  * with asymmetric pads, groups with C_in ≠ C_out, depthwise multipliers, dilation, 1-D and 3-D,
- * auto_pad), and the strided ConvTranspose form (pads, kernels, strides 2–3, groups, dilation). Reference: the adjoint of the ONNX Conv
+ * auto_pad), and the strided ConvTranspose form (pads, kernels, strides 2–3, groups, dilation,
+ * 1-D to 3-D); the bench's polyphase form (test/bench/polyphase-conv.ts) is held to the same
+ * reference so its timings compare exact graphs. Reference: the adjoint of the ONNX Conv
  * definition, y[co,o] = Σ_{ci∈group, t} W[co,ci,t]·x[ci, o·s − p_begin + t·d], evaluated
  * in float64 plain loops here: ∂(Σ g·y)/∂x[ci,i] = Σ g[co,o]·W[co,ci,t] over the taps that read i.
  */
@@ -15,8 +17,12 @@ import { composePlan } from '../../../../core/plan/compose';
 import { decodeModelProto } from '../../../../core/model/proto';
 import { mulberry32 } from '../../../../core/metrics/random';
 import { relL2 } from '../../../helpers';
+import { gradientRules } from '../../../../core/autodiff/rules';
+import { polyphaseConv, withConvRule } from '../../../bench/polyphase-conv';
 
-interface ConvCase { name: string; x: number[]; w: number[]; strides?: number[]; pads?: number[]; dilations?: number[]; group?: number; autoPad?: string }
+interface ConvCase {
+  name: string; x: number[]; w: number[]; strides?: number[]; pads?: number[]; dilations?: number[]; group?: number; autoPad?: string;
+}
 
 const CASES: ConvCase[] = [
   { name: '3x3 stride 1, asymmetric pads [0,2,1,0]', x: [1, 3, 6, 7], w: [4, 3, 3, 3], pads: [0, 2, 1, 0] },
@@ -36,6 +42,15 @@ const CASES: ConvCase[] = [
   { name: 'stride 2 depthwise', x: [1, 4, 7, 7], w: [4, 1, 3, 3], strides: [2, 2], pads: [1, 1, 1, 1], group: 4 },
   { name: 'stride 2 dilation 2', x: [1, 2, 9, 9], w: [3, 2, 3, 3], strides: [2, 2], pads: [2, 2, 2, 2], dilations: [2, 2] },
   { name: 'strides [2,1]', x: [1, 2, 8, 6], w: [3, 2, 3, 3], strides: [2, 1], pads: [1, 1, 1, 1] },
+  { name: 'stride 3 dilation 2, pads [1,3,2,0]', x: [1, 2, 13, 11], w: [3, 2, 3, 3], strides: [3, 3], pads: [1, 3, 2, 0], dilations: [2, 2] },
+  { name: 'stride 3 group 2, 4x4, pads 1', x: [1, 4, 10, 12], w: [6, 2, 4, 4], strides: [3, 3], pads: [1, 1, 1, 1], group: 2 },
+  { name: 'stride 3, 2x2 (a phase with no taps), pads 0', x: [1, 2, 9, 9], w: [3, 2, 2, 2], strides: [3, 3] },
+  { name: 'stride 2 dilation 3, 1-D, pads [4,1]', x: [1, 2, 15], w: [2, 2, 3], strides: [2], pads: [4, 1], dilations: [3] },
+  { name: '3-D stride 2, kernel 3, pads 1', x: [1, 2, 5, 6, 6], w: [3, 2, 3, 3, 3], strides: [2, 2, 2], pads: [1, 1, 1, 1, 1, 1] },
+  { name: 'auto_pad SAME_UPPER stride 2, kernel 3', x: [1, 2, 7, 8], w: [3, 2, 3, 3], strides: [2, 2], autoPad: 'SAME_UPPER' },
+  { name: 'stride 2, pads beyond the kernel (g cropped per phase)', x: [1, 2, 6, 6], w: [3, 2, 3, 3], strides: [2, 2], pads: [3, 3, 3, 3] },
+  { name: 'stride 1, pads beyond the kernel (g cropped)', x: [1, 2, 5, 5], w: [3, 2, 2, 2], pads: [2, 2, 2, 2] },
+  { name: 'stride 2, 1x1, pads 2 (g cropped, odd phases get nothing)', x: [1, 1, 2, 2], w: [1, 1, 1, 1], strides: [2, 2], pads: [2, 2, 2, 2] },
 ];
 
 const prod = (d: number[]) => d.reduce((a, b) => a * b, 1);
@@ -99,26 +114,36 @@ function referenceInputGradient(c: ConvCase, w: Float32Array, g: (i: number) => 
   return { yDims: [1, cout, ...ys], gx };
 }
 
-describe('Conv input gradient (flipped-kernel Conv at stride 1, ConvTranspose otherwise) vs the adjoint of the ONNX Conv definition', () => {
-  const engine = new Engine();
-  after(() => engine.dispose());
-  for (const c of CASES) {
-    it(c.name, async () => {
-      const rand = mulberry32(c.name.length * 7919);
-      const w = Float32Array.from({ length: prod(c.w) }, () => rand() - 0.5);
-      const x = Float32Array.from({ length: prod(c.x) }, () => rand() * 2 - 1);
-      const probe = referenceInputGradient(c, w, () => 0);
-      const R = prod(probe.yDims);
-      const seed = Float32Array.from({ length: R }, () => rand() * 2 - 1);
-      const ref = referenceInputGradient(c, w, (i) => seed[i]).gx;
-      const model = modelFromBytes(convModel(c, w, probe.yDims), `${c.name}.onnx`, { anyInput: true });
-      const pm = await engine.prepare(model, c.x, { anyScores: true });
-      const got = (await gradientsAt(engine, pm, x, ['x'], { base: seed, coef: new Float32Array(1), k: 1 })).get('x')!.data;
-      assert.ok(relL2(got, ref) < 1e-5, `rel L2 ${relL2(got, ref)}`);
-      // The backward uses the flipped-kernel Conv exactly where the stride is 1.
-      const ops = decodeModelProto(composePlan(pm, { passes: [{ relu: 'standard', layers: ['x'], heads: ['grad'] }] }).bytes).graph!.node!
-        .filter((nd) => nd.name?.startsWith('ff/')).map((nd) => nd.op_type);
-      assert.equal(ops.includes('ConvTranspose'), (c.strides ?? []).some((v) => v > 1));
-    });
-  }
-});
+for (const form of ['product', 'polyphase'] as const) {
+  describe(form === 'product'
+    ? 'Conv input gradient (flipped-kernel Conv at stride 1, ConvTranspose otherwise) vs the adjoint of the ONNX Conv definition'
+    : 'Conv input gradient, the bench\'s polyphase form (stride-1 Conv per output phase) vs the adjoint of the ONNX Conv definition', () => {
+    const engine = new Engine();
+    after(() => engine.dispose());
+    for (const c of CASES) {
+      it(c.name, async () => {
+        const rand = mulberry32(c.name.length * 7919);
+        const w = Float32Array.from({ length: prod(c.w) }, () => rand() - 0.5);
+        const x = Float32Array.from({ length: prod(c.x) }, () => rand() * 2 - 1);
+        const probe = referenceInputGradient(c, w, () => 0);
+        const R = prod(probe.yDims);
+        const seed = Float32Array.from({ length: R }, () => rand() * 2 - 1);
+        const ref = referenceInputGradient(c, w, (i) => seed[i]).gx;
+        const model = modelFromBytes(convModel(c, w, probe.yDims), `${c.name}.onnx`, { anyInput: true });
+        const pm = await engine.prepare(model, c.x, { anyScores: true });
+        const strided = (c.strides ?? []).some((v) => v > 1);
+        // At stride 1, pads beyond (k−1)·d leave the flipped-kernel Conv a negative pad, so both forms keep ConvTranspose there.
+        const nd = c.x.length - 2;
+        const padBeyond = (c.pads ?? []).some((p, i) => p > (c.w[2 + (i % nd)] - 1) * (c.dilations?.[i % nd] ?? 1));
+        await withConvRule(form === 'product' ? gradientRules.Conv : polyphaseConv, async () => {
+          const got = (await gradientsAt(engine, pm, x, ['x'], { base: seed, coef: new Float32Array(1), k: 1 })).get('x')!.data;
+          assert.ok(relL2(got, ref) < 1e-5, `rel L2 ${relL2(got, ref)}`);
+          // The product uses ConvTranspose exactly where the stride is above 1; polyphase only where stride 1 needs it.
+          const ops = decodeModelProto(composePlan(pm, { passes: [{ relu: 'standard', layers: ['x'], heads: ['grad'] }] }).bytes).graph!.node!
+            .filter((nd) => nd.name?.startsWith('ff/')).map((nd) => nd.op_type);
+          assert.equal(ops.includes('ConvTranspose'), strided ? form === 'product' : padBeyond, ops.join(' '));
+        });
+      });
+    }
+  });
+}
