@@ -78,6 +78,14 @@ export function mapData(m: EngineMap): MapData {
   return m;
 }
 
+/**
+ * The engine's hints are worded for both programs; in the editor a limit it names is a setting,
+ * so the hint says which one.
+ */
+export function editorHint(hint: string): string {
+  return hint.replace(/\braise the memory budget\b(?! \()/, 'raise the memory budget (setting Factfoil: Memory Budget MB, factfoil.memoryBudgetMB)');
+}
+
 /** "Saved washer-0001.contrast.stage4.washer-vs-bearing.png and its record beside the image." */
 export function savedMessage(files: string[], image: string): string {
   const png = files.find((f) => f.endsWith('.png'));
@@ -159,7 +167,7 @@ export class PanelRelay {
     if (kind === 'internal' || kind === undefined) this.d.log.error(`request ${id} failed: ${err?.stack ?? e}`);
     this.post({
       type: 'failed', id, message: String(err?.message ?? e).slice(0, 2000),
-      ...(err?.hint ? { hint: err.hint.slice(0, 2000) } : kind === 'internal' ? { hint: 'Details are in the Factfoil output channel.' } : {}),
+      ...(err?.hint ? { hint: editorHint(err.hint).slice(0, 2000) } : kind === 'internal' ? { hint: 'Details are in the Factfoil output channel.' } : {}),
       ...(kind === 'cancelled' ? { cancelled: true } : {}),
     });
   }

@@ -8,7 +8,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { EngineMap, EngineOp, EngineRequestOf, EngineResultOf, ViewInfo } from '../../core/engine-process/protocol';
 import { EngineLike, EngineRequestError, PendingRequest, RequestHandlers } from '../../extension/engine-client';
-import { PanelRelay, PanelUi, initMessage, savedMessage } from '../../extension/panel-relay';
+import { PanelRelay, PanelUi, editorHint, initMessage, savedMessage } from '../../extension/panel-relay';
 import { DEFAULT_SETTINGS, FactfoilSettings } from '../../extension/settings';
 import { PROTOCOL_VERSION, ToWebview, checkToWebview } from '../../webview/protocol';
 
@@ -375,6 +375,18 @@ describe('panel relay (extension host side of the panel)', () => {
     } finally {
       rmSync(dir, { recursive: true, force: true });
     }
+  });
+
+  it('names the editor setting when a hint says to raise the memory budget (no hint that points nowhere)', async () => {
+    assert.equal(editorHint('pick a deeper layer, a smaller input size, or raise the memory budget'),
+      'pick a deeper layer, a smaller input size, or raise the memory budget (setting Factfoil: Memory Budget MB, factfoil.memoryBudgetMB)');
+    assert.equal(editorHint('check the box coordinates'), 'check the box coordinates');
+    const { relay, engine, ofType } = setup();
+    relay.receive({ type: 'requestMaps', id: 40, kind: 'mismatch', fact: 1, layers: ['stage1'] });
+    await tick(); await tick();
+    engine.last('maps').reject(new EngineRequestError('user', 'explaining stage1 needs about 900 MB', 'pick a deeper layer, or raise the memory budget'));
+    await tick();
+    assert.match(ofType('failed')[0].hint ?? '', /factfoil\.memoryBudgetMB/);
   });
 
   it('initMessage and savedMessage say where things are', () => {
