@@ -149,7 +149,7 @@ async function probeFormat(file: string, maxPixels: number): Promise<{ format: s
   if (w * h > maxPixels) {
     throw new UserError(
       `cannot use ${file}: ${w}×${h} is ${(w * h / 1e6).toFixed(1)} megapixels, over the limit of ${(maxPixels / 1e6).toFixed(1)}`,
-      'scale the image down first, or raise the pixel limit',
+      'scale the image down first (the model sees it at its input size anyway)',
     );
   }
   return { format: format === 'heif' ? 'avif' : format, frames: Math.max(1, meta.pages ?? 1) };

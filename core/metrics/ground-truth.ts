@@ -167,7 +167,7 @@ export function pointingHit(map: NumericArray, mask: NumericArray, w: number, h:
 export function boxToMask(x: number, y: number, w: number, h: number, W: number, H: number): Uint8Array {
   requireDims(W, H, 'boxToMask');
   if (![x, y, w, h].every(Number.isFinite) || w <= 0 || h <= 0) {
-    throw new UserError(`boxToMask: box (${x}, ${y}, ${w}, ${h}) needs finite numbers and a positive width and height`);
+    throw new UserError(`the object box (x ${x}, y ${y}, width ${w}, height ${h}) needs numbers and a positive width and height`);
   }
   const mask = new Uint8Array(W * H);
   // Column c is inside when x ≤ c + ½ < x + w, i.e. c ∈ [ceil(x − ½), ceil(x + w − ½) − 1].
@@ -177,7 +177,7 @@ export function boxToMask(x: number, y: number, w: number, h: number, W: number,
   const r1 = Math.min(Math.ceil(y + h - 0.5) - 1, H - 1);
   for (let r = r0; r <= r1; r++) mask.fill(1, r * W + c0, r * W + c1 + 1);
   if (countMask(mask, 'boxToMask') === 0) {
-    throw new UserError(`boxToMask: box (${x}, ${y}, ${w}, ${h}) covers no pixel of the ${W}×${H} image`, 'check the box coordinates');
+    throw new UserError(`the object box (x ${x}, y ${y}, width ${w}, height ${h}) covers no pixel of the ${W}×${H} image`, 'give x, y, width and height in image pixels, with the box inside the image');
   }
   return mask;
 }
