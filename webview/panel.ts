@@ -135,7 +135,7 @@ export class Panel {
 
     this.pinButton = h('button', { class: 'ff-button ff-button-secondary', text: 'Pin', attrs: { id: 'ff-pin', type: 'button', 'aria-keyshortcuts': 'p', title: 'Pin the current map (P)' }, on: { click: () => this.pinCurrent() } });
     this.saveButton = h('button', { class: 'ff-button', text: 'Save', attrs: { id: 'ff-save', type: 'button', 'aria-keyshortcuts': 's', title: 'Save the map beside the image (S)' }, on: { click: () => this.saveCurrent() } });
-    this.settingsButton = h('button', { class: 'ff-button ff-button-quiet', text: 'Preprocessing…', attrs: { id: 'ff-open-settings', type: 'button', 'aria-keyshortcuts': ',', title: 'Preprocessing and labels (,)' }, on: { click: () => this.openSettings() } });
+    this.settingsButton = h('button', { class: 'ff-button ff-button-quiet', text: 'Preprocessing and labels…', attrs: { id: 'ff-open-settings', type: 'button', 'aria-keyshortcuts': ',', title: 'Preprocessing and labels (,)' }, on: { click: () => this.openSettings() } });
     const head = h('header', { class: 'ff-head' }, [
       this.title,
       h('div', { class: 'ff-head-actions' }, [
