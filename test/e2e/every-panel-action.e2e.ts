@@ -425,6 +425,8 @@ describe('end to end in code-server: every panel action', function () {
       assert.doesNotMatch(message, /\n\s+at /, 'no stack trace');
       assert.ok(await f.locator('#ff-open-settings').isDisabled(), 'the drawer cannot be opened on a failed model');
       assert.ok(await f.locator('#ff-pin').isDisabled() && await f.locator('#ff-save').isDisabled(), 'pin and save are off');
+      assert.ok(await f.locator('#ff-trust-run').isDisabled(), 'no trust checks on a model that did not open');
+      assert.equal(await f.getByText(/Computing the map/).filter({ visible: true }).count(), 0, 'nothing claims to be computing');
       await shot('06-failed-open');
     });
     await closeAll();
