@@ -48,17 +48,23 @@ export function faithfulnessVerdict(r: TrustReport): CheckVerdict | undefined {
   for (const k of r.kinds) {
     const x = f.maps[k];
     if (!x) continue;
+    // The matched baseline: smooth random orders for layer-resolution maps, per-pixel ones for input-resolution maps (DESIGN §4.3.4).
     const b = f.random[x.baseline];
+    const name = x.baseline === 'layer_grid' ? 'random (grid)' : 'random';
     const del = b.deletion.auc - x.deletion.auc; // positive = better than random
     const ins = x.insertion.auc - b.insertion.auc;
-    const v: Verdict = del <= 0 ? 'failed' : del >= m && ins >= m ? 'passed' : 'doubtful';
+    // Beating the smooth baseline but not the per-pixel one is still worth a doubt.
+    const px = x.baseline === 'layer_grid' ? f.random.pixels : undefined;
+    const worseThanPixels = px !== undefined && x.deletion.auc >= px.deletion.auc;
+    const v: Verdict = del <= 0 ? 'failed' : del >= m && ins >= m && !worseThanPixels ? 'passed' : 'doubtful';
     per.push(v);
     const cmp = del <= 0 ? 'worse than random' : del >= m ? 'better than random' : 'barely better than random';
-    lines.push(`${k}: ${v} — deletion ${f2(x.deletion.auc)} vs random ${f2(b.deletion.auc)} (${cmp}), insertion ${f2(x.insertion.auc)} vs random ${f2(b.insertion.auc)}`);
+    const pxNote = worseThanPixels ? `; deletion not below the per-pixel random order's ${f2(px!.deletion.auc)}` : '';
+    lines.push(`${k}: ${v} — deletion ${f2(x.deletion.auc)} vs ${name} ${f2(b.deletion.auc)} (${cmp}), insertion ${f2(x.insertion.auc)} vs ${name} ${f2(b.insertion.auc)}${pxNote}`);
   }
   return {
     verdict: combine(per), lines,
-    rule: `Passed when the deletion area is at least ${m} below the random order's and the insertion area at least ${m} above it; failed when deletion is not below random (margin: common practice, no source).`,
+    rule: `Passed when the deletion area is at least ${m} below the random order's and the insertion area at least ${m} above it (layer maps against smooth random orders on the layer grid, which they must also not lose to per pixel); failed when deletion is not below random (margin: common practice, no source).`,
   };
 }
 

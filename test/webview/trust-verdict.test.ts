@@ -41,6 +41,13 @@ describe('trust verdicts', () => {
     const thin = faithfulnessVerdict(faith({ evidence: [0.28, 0.60] }, [0.30, 0.40]))!;
     assert.equal(thin.verdict, 'doubtful');
     assert.match(thin.lines[0], /barely better than random/);
+    // a layer map against the smooth (grid) baseline: beating it but not the per-pixel order is doubtful
+    const grid = faith({ evidence: [0.15, 0.6] }, [0.30, 0.40]);
+    grid.faithfulness!.maps.evidence!.baseline = 'layer_grid';
+    grid.faithfulness!.random.pixels = { ...random(0.06, 0.4) };
+    const g = faithfulnessVerdict(grid)!;
+    assert.equal(g.verdict, 'doubtful');
+    assert.match(g.lines[0], /vs random \(grid\) 0\.30 .*not below the per-pixel random order's 0\.06/);
     // one kind passes, one fails: the set is doubtful
     assert.equal(faithfulnessVerdict(faith({ evidence: [0.10, 0.60], contrast: [0.35, 0.60] }, [0.30, 0.40]))!.verdict, 'doubtful');
   });
