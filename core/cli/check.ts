@@ -18,7 +18,8 @@ import { defaultTrustLayer, regionFor, runTrustChecks } from '../trust/run';
 import { summarizeReports, summaryJson, TrustSummary } from '../trust/summary';
 import { parseBox } from '../trust/truth';
 import { Summary } from '../metrics/summarize';
-import { openModel, ModelContext } from '../workflow/open-model';
+import type { ModelContext } from '../workflow/open-model';
+import { openModelNoting } from './open';
 import { imageInput } from '../workflow/model-input';
 import { CliArgs, modelPath, resolveLayer } from './args';
 
@@ -55,7 +56,7 @@ function parseList<T extends string>(arg: string | undefined, allowed: readonly 
 
 export async function checkCommand(engine: Engine, args: CliArgs): Promise<number> {
   const v = args.values;
-  const ctx = await openModel(engine, modelPath(args), v.labels);
+  const ctx = await openModelNoting(engine, modelPath(args), v.labels);
   const tests = parseList<TrustTest>(v.tests, TRUST_TESTS, 'check');
   const kinds = parseList<TrustMapKind>(v.map, TRUST_MAP_KINDS, 'map kind');
   const layer = v.layer ? resolveLayer(ctx.pm, v.layer)[0] : defaultTrustLayer(ctx.pm);

@@ -5,7 +5,7 @@ import { Engine } from '../engine/engine';
 import { UserError } from '../errors';
 import { explainMaps, MapKind, MAP_KINDS, Question, Estimate } from '../methods/maps';
 import { PROBE_DESIGNS, type ProbeDesign } from '../methods/mismatch-seeds';
-import { openModel } from '../workflow/open-model';
+import { openModelNoting } from './open';
 import { imageInput, tensorInput, ModelInput } from '../workflow/model-input';
 import { softmax, ranked } from '../workflow/prediction';
 import { saveMap } from '../workflow/save-map';
@@ -41,7 +41,7 @@ function parseEstimate(arg: string | undefined): Estimate {
 
 export async function explainCommand(engine: Engine, args: CliArgs): Promise<number> {
   const v = args.values;
-  const ctx = await openModel(engine, modelPath(args), v.labels);
+  const ctx = await openModelNoting(engine, modelPath(args), v.labels);
   const kinds = (v.map ?? 'contrast').split(',') as MapKind[];
   for (const k of kinds) if (!MAP_KINDS.includes(k)) throw new UserError(`unknown map kind '${k}'`, `choose from ${MAP_KINDS.join(', ')}`);
   const contrast = (v.contrast ?? 'margin') as 'margin' | 'loss';

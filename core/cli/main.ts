@@ -2,7 +2,7 @@
 import * as path from 'node:path';
 import { Engine } from '../engine/engine';
 import { UserError, isUserError } from '../errors';
-import { openModel } from '../workflow/open-model';
+import { openModelNoting, takeOriginNotes } from './open';
 import { imageInput, tensorInput } from '../workflow/model-input';
 import { softmax, ranked } from '../workflow/prediction';
 import { CliArgs, USAGE, modelPath, parseCommandArgs, resolveLayer } from './args';
@@ -15,6 +15,12 @@ import { checkCommand } from './check';
 import { noLayerReason } from '../model/layers';
 
 export async function main(argv: string[]): Promise<number> {
+  const code = await runCommand(argv);
+  if (code === 0) for (const note of takeOriginNotes()) process.stderr.write(note + '\n');
+  return code;
+}
+
+async function runCommand(argv: string[]): Promise<number> {
   const engine = new Engine();
   try {
     const [command, ...rest] = argv;
@@ -36,7 +42,7 @@ export async function main(argv: string[]): Promise<number> {
 }
 
 async function layersCommand(engine: Engine, args: CliArgs): Promise<number> {
-  const ctx = await openModel(engine, args.positionals[0] ?? modelPath(args), args.values.labels);
+  const ctx = await openModelNoting(engine, args.positionals[0] ?? modelPath(args), args.values.labels);
   if (!ctx.pm.layers.length) throw noLayerReason(ctx.pm.analysis, ctx.pm.scores.tensor, ctx.pm.layers, ctx.pm.model.path);
   const layers = ctx.pm.layers.map((l, index) => ({
     index, id: l.id, shape: l.shape, kind: l.kind, grid: l.grid, stage: l.isStage,
@@ -55,7 +61,7 @@ async function layersCommand(engine: Engine, args: CliArgs): Promise<number> {
 }
 
 async function predictCommand(engine: Engine, args: CliArgs): Promise<number> {
-  const ctx = await openModel(engine, modelPath(args), args.values.labels);
+  const ctx = await openModelNoting(engine, modelPath(args), args.values.labels);
   const file = args.positionals[0];
   if (!file && !args.values.input) throw new UserError('missing <image>');
   const input = args.values.input ? await tensorInput(ctx, args.values.input) : await imageInput(ctx, file);
@@ -69,7 +75,7 @@ async function predictCommand(engine: Engine, args: CliArgs): Promise<number> {
 }
 
 async function gradCommand(engine: Engine, args: CliArgs): Promise<number> {
-  const ctx = await openModel(engine, modelPath(args), args.values.labels);
+  const ctx = await openModelNoting(engine, modelPath(args), args.values.labels);
   const { layer, target, out } = args.values;
   if (!layer || target === undefined || !out) throw new UserError('grad needs --layer, --target and --out');
   const loss = (args.values.loss ?? 'logit') as 'logit' | 'ce';

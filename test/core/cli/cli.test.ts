@@ -21,6 +21,18 @@ describe('factfoil CLI', () => {
     for (const s of ['stage1', 'stage2', 'stage3', 'stage4']) assert.ok(stages.includes(s), stages.join(','));
   });
 
+  it('says on stderr what it guessed: preprocessing from the input shape, labels it could not find; nothing when both are given', () => {
+    const image = path.join(FIXTURES, 'parts/demo/washer/washer-0001.png');
+    const bare = run(['predict', image, '--model', path.join(FIXTURES, 'arch/resnet/model.onnx'), '--json']);
+    assert.equal(bare.status, 0, bare.stderr);
+    assert.match(bare.stderr, /note: model\.onnx has no preprocessing settings; guessed from its input shape: .* write "preprocess" into model\.factfoil\.json/);
+    assert.match(bare.stderr, /note: no labels found for model\.onnx; classes are named class 0…class \d+\. Put labels\.txt beside the model, or pass --labels <file>\./);
+    JSON.parse(bare.stdout); // the notes stay off stdout
+    const demo = run(['predict', image, '--model', path.join(FIXTURES, 'parts/parts-sorter.onnx'), '--json']);
+    assert.equal(demo.status, 0, demo.stderr);
+    assert.doesNotMatch(demo.stderr, /note:/);
+  });
+
   it('grad matches the PyTorch float64 reference (test-fixtures/arch/resnet, rel L2 ≤ 1e-4)', async () => {
     const out = path.join(mkdtempSync(path.join(tmpdir(), 'ff-')), 'g.npy');
     const r = run(['grad', '--model', path.join(FIXTURES, 'arch/resnet/model.onnx'), '--input', path.join(FIXTURES, 'arch/resnet/input.npy'), '--layer', 'stage2', '--target', '5', '--out', out]);
