@@ -8,12 +8,14 @@
 // installed extension loads is there, nothing of another platform is, and every native
 // binary's header names the target's machine.
 import { execFileSync } from 'node:child_process';
-import { copyFileSync, existsSync, mkdirSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
+import { copyFileSync, existsSync, mkdirSync, readFileSync, renameSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { NATIVE_FILE, TARGETS, nativeHeader, unresolvedLibraries, zipEntries } from './platform-targets.mjs';
 
+const partials = [];
 function fail(message) {
   console.error(`package: ${message}`);
+  for (const f of partials) rmSync(f, { force: true });
   process.exit(1);
 }
 
@@ -92,8 +94,13 @@ function unwantedEntry(name, target) {
 
 function packTarget(target) {
   const t = TARGETS[target];
-  const stage = resolve('.cache', 'package', target);
+  // Per process: two packing runs at once (two engineers, or a test and a build) neither share
+  // a staging folder nor leave a half-written .vsix where the other reads it; the archive is
+  // written under a temporary name, checked, then renamed into place.
+  const stage = resolve('.cache', 'package', `${target}-${process.pid}`);
   const out = resolve('dist-vsix', `${root.name}-${root.version}-${target}.vsix`);
+  const partial = `${out}.${process.pid}.partial`;
+  partials.push(partial);
   rmSync(stage, { recursive: true, force: true });
   mkdirSync(join(stage, 'dist'), { recursive: true });
   writeFileSync(join(stage, 'package.json'), JSON.stringify(stagingManifest(), null, 2) + '\n');
@@ -108,12 +115,15 @@ function packTarget(target) {
   writeFileSync(join(stage, '.vscodeignore'), whitelist(t));
   mkdirSync('dist-vsix', { recursive: true });
   // --allow-missing-repository: there is no public repository to link to.
-  run(process.execPath, [resolve('node_modules/@vscode/vsce/vsce'), 'package', '--target', target, '--out', out, '--allow-missing-repository'], stage);
-  return checkPackage(out, target);
+  run(process.execPath, [resolve('node_modules/@vscode/vsce/vsce'), 'package', '--target', target, '--out', partial, '--allow-missing-repository'], stage);
+  const result = checkPackage(partial, target, out);
+  renameSync(partial, out);
+  rmSync(stage, { recursive: true, force: true });
+  return { ...result, file: out };
 }
 
 // Reads the packed archive back: required files, unwanted files, native headers.
-function checkPackage(file, target) {
+function checkPackage(file, target, label = file) {
   const t = TARGETS[target];
   const entries = zipEntries(file);
   const names = entries.map((e) => e.name);
@@ -129,7 +139,7 @@ function checkPackage(file, target) {
   if (unresolved.length) fail(`${file}: native binaries need libraries that are neither packed nor part of ${t.os}:\n  ${unresolved.join('\n  ')}`);
   const bytes = statSync(file).size;
   const mib = (bytes / 2 ** 20).toFixed(1);
-  console.log(`package: ${file}: ${mib} MiB, ${names.length} files, ${natives.length} native binaries, all ${t.machine}` +
+  console.log(`package: ${label}: ${mib} MiB, ${names.length} files, ${natives.length} native binaries, all ${t.machine}` +
     `, every imported library packed or part of ${t.os}` + (delayedAbsent.length ? ` (delay-loaded, not packed: ${delayedAbsent.join(', ')})` : ''));
   return { target, file, bytes, files: names.length, natives: headers, delayedAbsent };
 }
