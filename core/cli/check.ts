@@ -8,11 +8,12 @@ import * as path from 'node:path';
 import sharp from 'sharp';
 import { Engine } from '../engine/engine';
 import { UserError } from '../errors';
-import { layerShortName, sanitizeNamePart, writeUniqueFiles } from '../io/naming';
+import { writeUniqueFiles } from '../io/naming';
 import { resolveClass } from '../io/labels';
 import { findMask, ImageItem } from '../io/masks';
 import { chartRow, lineChart, svgText, SvgNode } from '../trust/chart';
-import { cascadeChart, driftCharts, EXPLAIN, faithfulnessCharts } from '../trust/figures';
+import { CHART_PNG_STYLE, EXPLAIN, savedChartSets } from '../trust/figures';
+import { writeTrustReport } from '../trust/report-files';
 import { TRUST_MAP_KINDS, TRUST_TESTS, TrustMapKind, TrustReport, TrustTest } from '../trust/report';
 import { defaultTrustLayer, regionFor, runTrustChecks } from '../trust/run';
 import { summarizeReports, summaryJson, TrustSummary } from '../trust/summary';
@@ -126,39 +127,15 @@ function commonFolder(items: ImageItem[]): string {
 
 // ---- the report files -----------------------------------------------------------------------
 
-/** Okabe & Ito's colour-blind-safe palette (Okabe & Ito, "Color Universal Design", 2008), one colour per map kind. */
-const PNG_STYLE = `
-.ff-chart-title{font:600 12px sans-serif;fill:#1a1a1a}.ff-chart-caption{font:10px sans-serif;fill:#555}
-.ff-chart-tick,.ff-chart-legend{font:10px sans-serif;fill:#333}.ff-chart-label{font:10px sans-serif;fill:#444}
-.ff-chart-axis{stroke:#666;stroke-width:1}.ff-chart-grid{stroke:#ddd;stroke-width:1}
-.ff-chart-line{fill:none;stroke-width:1.8}.ff-chart-dashed{stroke-dasharray:4 3}
-.ff-series-0{stroke:#0072B2;fill:#0072B2}.ff-series-1{stroke:#D55E00;fill:#D55E00}.ff-series-2{stroke:#009E73;fill:#009E73}
-.ff-series-3{stroke:#CC79A7;fill:#CC79A7}.ff-series-4{stroke:#E69F00;fill:#E69F00}.ff-series-base{stroke:#777;fill:#777}
-polyline.ff-chart-line{fill:none}`;
-
 async function chartPng(charts: SvgNode[]): Promise<Buffer> {
-  const svg = svgText(chartRow(charts, '#ffffff'), PNG_STYLE);
+  const svg = svgText(chartRow(charts, '#ffffff'), CHART_PNG_STYLE);
   return sharp(Buffer.from(svg), { density: 144 }).png().toBuffer();
 }
 
 /** Writes `<image>.trust.<layer>.<fact>.json` and its charts beside the image (or in outDir), never overwriting. */
 async function saveReport(ctx: ModelContext, imagePath: string, report: TrustReport, outDir?: string): Promise<string[]> {
-  const dir = outDir ? path.resolve(outDir) : path.dirname(imagePath);
-  const stem = [sanitizeNamePart(path.basename(imagePath, path.extname(imagePath)), 60), 'trust', sanitizeNamePart(layerShortName(report.layer)), sanitizeNamePart(ctx.labels[report.fact])].join('.');
-  const parts: { ext: string; make: () => Promise<Buffer> }[] = [];
-  const f = faithfulnessCharts(report);
-  if (f.length) parts.push({ ext: '.faithfulness.png', make: () => chartPng(f.map(lineChart)) });
-  const c = cascadeChart(report);
-  const ci = cascadeChart(report, 'spearman', 'independent');
-  if (c) parts.push({ ext: '.sanity.png', make: () => chartPng([c, ...(ci ? [ci] : [])].map(lineChart)) });
-  const d = driftCharts(report);
-  if (d.length) parts.push({ ext: '.robustness.png', make: () => chartPng(d.map(lineChart)) });
-  const pngs = await Promise.all(parts.map((p) => p.make()));
-  const chosen = await writeUniqueFiles(dir, stem, ['.json', ...parts.map((p) => p.ext)], (names) => [
-    JSON.stringify({ image: imagePath, model: { path: path.resolve(ctx.pm.model.path), sha256: ctx.pm.model.sha256 }, labels: { fact: ctx.labels[report.fact], ...(report.foil !== undefined ? { foil: ctx.labels[report.foil] } : {}) }, charts: names.paths.slice(1).map((p) => path.basename(p)), ...report }, null, 2) + '\n',
-    ...pngs,
-  ]);
-  return chosen.paths;
+  const charts = await Promise.all(savedChartSets(report).map(async ([name, specs]) => ({ ext: `.${name}.png`, png: await chartPng(specs.map(lineChart)) })));
+  return writeTrustReport({ imagePath, model: { path: ctx.pm.model.path, sha256: ctx.pm.model.sha256 }, labels: ctx.labels, ...(outDir ? { outDir } : {}) }, report, charts);
 }
 
 // ---- text output ------------------------------------------------------------------------------

@@ -115,3 +115,16 @@ export const CHART_PNG_STYLE = `
 .ff-series-3{stroke:#b22fa8;fill:#b22fa8}.ff-series-4{stroke:#8f7a00;fill:#8f7a00}.ff-series-base{stroke:#777;fill:#777}
 .ff-chart-line.ff-series-3{stroke-dasharray:7 3}.ff-chart-line.ff-series-4{stroke-dasharray:1.5 2.5;stroke-linecap:round}
 polyline.ff-chart-line{fill:none}`;
+
+/** The chart files a saved report carries, by name, each a row of charts: the CLI and the panel save the same set. */
+export type SavedChartName = 'faithfulness' | 'sanity' | 'robustness';
+export function savedChartSets(r: TrustReport): [SavedChartName, LineChartSpec[]][] {
+  const out: [SavedChartName, LineChartSpec[]][] = [];
+  const f = faithfulnessCharts(r);
+  if (f.length) out.push(['faithfulness', f]);
+  const c = [cascadeChart(r), cascadeChart(r, 'spearman', 'independent')].filter((x): x is LineChartSpec => !!x);
+  if (c.length) out.push(['sanity', c]);
+  const d = driftCharts(r);
+  if (d.length) out.push(['robustness', d]);
+  return out;
+}

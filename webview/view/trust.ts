@@ -6,8 +6,7 @@
 import { clear, h } from '../dom';
 import type { HostLink } from '../host-link';
 import { LayerInfo, ToWebview, TRUST_TESTS, TrustChartPng, TrustReport, TrustTest } from '../protocol';
-import { cascadeChart, driftCharts, EXPLAIN, faithfulnessCharts } from '../../core/trust/figures';
-import type { LineChartSpec } from '../../core/trust/chart';
+import { cascadeChart, driftCharts, EXPLAIN, faithfulnessCharts, savedChartSets } from '../../core/trust/figures';
 import { CheckVerdict, faithfulnessVerdict, robustnessVerdict, sanityVerdict, truthVerdict, VERDICT_WORDS } from '../trust-verdict';
 import { StatusLine } from './status-line';
 import { chartElement } from './trust-charts';
@@ -140,7 +139,7 @@ export class TrustView {
     this.saveButton.disabled = true;
     try {
       const charts: TrustChartPng[] = [];
-      for (const [name, specs] of reportCharts(shown.report)) charts.push({ name, png: await chartsPngBase64(specs) });
+      for (const [name, specs] of savedChartSets(shown.report)) charts.push({ name, png: await chartsPngBase64(specs) });
       this.saveId = this.link.request({ type: 'saveTrust', trustId: shown.id, charts });
       this.status.show({ kind: 'progress', message: 'Saving the trust report…', onCancel: () => undefined });
     } catch (e) {
@@ -207,17 +206,6 @@ function figure(test: TrustTest, title: string, body: Element[], explain: string
 }
 
 /** The charts of a report by file name, as the CLI writes them (sanity: cascade and one-at-a-time side by side). */
-function reportCharts(r: TrustReport): [TrustChartPng['name'], LineChartSpec[]][] {
-  const out: [TrustChartPng['name'], LineChartSpec[]][] = [];
-  const f = faithfulnessCharts(r);
-  if (f.length) out.push(['faithfulness', f]);
-  const c = [cascadeChart(r), cascadeChart(r, 'spearman', 'independent')].filter((x): x is LineChartSpec => !!x);
-  if (c.length) out.push(['sanity', c]);
-  const d = driftCharts(r);
-  if (d.length) out.push(['robustness', d]);
-  return out;
-}
-
 /** A layer's short name when the tensor is one of the model's layers, else the name as given. */
 function shortName(tensor: string | undefined, layers: readonly LayerInfo[]): string {
   if (!tensor) return '';
