@@ -423,6 +423,8 @@ describe('end to end in code-server: every panel action', function () {
 
     // ---- trust: run a check, save the report --------------------------------------------------------------
     await step('trust: run the faithfulness check, then Save report beside the image', 150, async () => {
+      // The save toasts sit over the right-hand check boxes (a click there waited ~14 s for them to go).
+      await runFromPalette(page, 'Notifications: Clear All Notifications');
       await panel.locator('#ff-trust').scrollIntoViewIfNeeded();
       for (const t of ['sanity', 'robustness', 'truth']) await panel.locator(`#ff-trust-${t}`).setChecked(false);
       await panel.locator('#ff-trust-faithfulness').setChecked(true);
