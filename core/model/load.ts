@@ -9,6 +9,7 @@ import { checkTensorPayload } from './tensor';
 import { sniffFileType } from './sniff';
 import { hasFloat16, widenFloat16 } from './widen';
 import { checkUpgradable } from './upgrade';
+import { floatFeedForBytes, uint8InputHint } from './raw-input';
 
 /** IR and opset range this build understands (ORT 1.30 runs more; models are upgraded to opset 18 for differentiation). */
 export const IR_RANGE = [3, 10] as const;
@@ -47,6 +48,11 @@ export interface LoadedModel {
   metadata: Record<string, string>;
   /** The file holds float16 tensors; they were widened to float32 (widen.ts) and run in float32. */
   widenedFromFloat16: boolean;
+  /**
+   * The file's input is 8-bit raw pixels with the preprocessing in the graph (raw-input.ts): it is
+   * fed the 0–255 values as float32, and the image preprocessing defaults to `raw255`.
+   */
+  rawPixelInput?: 'uint8';
 }
 
 export interface LoadOptions {
@@ -99,6 +105,7 @@ export function modelFromBytes(bytes: Uint8Array, modelPath: string, opts: LoadO
   if (widenedFromFloat16) widenFloat16(proto);
   for (const t of proto.graph.initializer ?? []) checkTensorPayload(t, `${modelPath}: initializer '${t.name ?? ''}'`);
   refuseCustomOps(proto, modelPath);
+  const rawPixelInput = opts.anyInput ? undefined : floatFeedForBytes(proto, modelPath);
   checkUpgradable(proto.graph.node ?? [], opset, modelPath);
   const graph = indexGraph(proto.graph, modelPath);
   for (const n of graph.nodes) {
@@ -106,11 +113,11 @@ export function modelFromBytes(bytes: Uint8Array, modelPath: string, opts: LoadO
       if (v && typeof v === 'object' && !Array.isArray(v) && 'data_type' in v) checkTensorPayload(v, `${modelPath}: attribute '${k}' of ${n.opType} node '${n.name}'`);
     }
   }
-  const input = pickImageInput(graph.inputs, modelPath, opts.anyInput ?? false);
+  const input = pickImageInput(graph.inputs, modelPath, opts.anyInput ?? false, proto);
   const output = pickOutput(graph.outputs, modelPath, opts.scores);
   const metadata: Record<string, string> = {};
   for (const p of proto.metadata_props ?? []) if (p.key) metadata[p.key] = p.value ?? '';
-  return { path: modelPath, sha256, proto, graph, irVersion, opset, input, output, metadata, widenedFromFloat16 };
+  return { path: modelPath, sha256, proto, graph, irVersion, opset, input, output, metadata, widenedFromFloat16, ...(rawPixelInput ? { rawPixelInput } : {}) };
 }
 
 /**
@@ -150,7 +157,7 @@ function valueDims(v: ValueInfoProto): (number | string)[] {
 }
 
 /** The classifier's image input: the one float tensor input of rank 3 or 4. */
-function pickImageInput(inputs: ValueInfoProto[], modelPath: string, anyRank: boolean): InputSpec {
+function pickImageInput(inputs: ValueInfoProto[], modelPath: string, anyRank: boolean, proto?: ModelProto): InputSpec {
   if (inputs.length === 0) throw new UserError(`${modelPath}: the graph has no inputs`, 'the model is not valid ONNX; re-export it');
   const candidates = inputs.filter((v) => v.type?.tensor_type?.elem_type === TensorType.FLOAT && (anyRank || [3, 4].includes(valueDims(v).length)));
   if (inputs.length > 1) {
@@ -159,7 +166,9 @@ function pickImageInput(inputs: ValueInfoProto[], modelPath: string, anyRank: bo
   if (candidates.length !== 1) {
     const v = inputs[0];
     const t = v.type?.tensor_type?.elem_type;
-    throw new UserError(`${modelPath}: input '${v.name}' is not a float image tensor (${elemTypeName(t)}, shape [${valueDims(v).join(',')}])`, 'the input must be float32 NCHW [1,C,H,W] or NHWC [1,H,W,C]');
+    const hint = 'the input must be float32 NCHW [1,C,H,W] or NHWC [1,H,W,C]';
+    throw new UserError(`${modelPath}: input '${v.name}' is not a float image tensor (${elemTypeName(t)}, shape [${valueDims(v).join(',')}])`,
+      t === TensorType.UINT8 && proto ? `${hint}; ${uint8InputHint(proto, v.name ?? '')}` : hint);
   }
   const v = candidates[0];
   const dims = valueDims(v);

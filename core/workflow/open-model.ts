@@ -27,7 +27,8 @@ export interface ModelContext {
 export async function openModel(engine: Engine, modelPath: string, labelsPath?: string): Promise<ModelContext> {
   const model = loadModel(modelPath);
   const sidecar = await readSidecar(modelPath);
-  const spec = resolvePreprocessSpec(model.input.dims, sidecar?.preprocess, sidecar ? `${modelPath} settings` : 'model settings', `${modelPath}: input '${model.input.name}'`);
+  // A model taking raw uint8 pixels does its own scaling: it is fed the 0–255 values (raw255) unless its settings say otherwise.
+  const spec = resolvePreprocessSpec(model.input.dims, sidecar?.preprocess ?? (model.rawPixelInput ? { preset: 'raw255' } : undefined), sidecar ? `${modelPath} settings` : 'model settings', `${modelPath}: input '${model.input.name}'`);
   const dims = spec.layout === 'NCHW' ? [1, spec.channels === 'GRAY' ? 1 : 3, spec.size[0], spec.size[1]] : [1, spec.size[0], spec.size[1], spec.channels === 'GRAY' ? 1 : 3];
   const pm = await engine.prepare(model, dims);
   const loaded = await loadLabelsWithSource({ modelPath, labelsPath, sidecar, metadataProps: model.metadata, numClasses: pm.scores.numClasses });

@@ -279,6 +279,66 @@ def make_float16(net, x32):
     return m, {"logits": [float(v) for v in zs], "checks": checks}
 
 
+MEAN, STD = [0.485, 0.456, 0.406], [0.229, 0.224, 0.225]
+
+
+class RawPixels(nn.Module):
+    """The preprocessing inside the graph, as deployment exports have it: uint8 NHWC pixels in,
+    Cast -> Div 255 -> Sub mean -> Div std -> Transpose to NCHW, then the net."""
+
+    def __init__(self, net):
+        super().__init__()
+        self.net = net
+        self.register_buffer("mean", torch.tensor(MEAN).reshape(1, 1, 1, 3))
+        self.register_buffer("std", torch.tensor(STD).reshape(1, 1, 1, 3))
+
+    def forward(self, u8):
+        x = (u8.to(self.mean.dtype) / 255.0 - self.mean) / self.std
+        return self.net(x.permute(0, 3, 1, 2))
+
+
+def make_uint8_nhwc(net):
+    """uint8 NHWC variant: fed raw 0-255 pixels. Reference: the same function in float64, with the
+    gradients at the two layers and at the raw pixels (through the preprocessing)."""
+    d = os.path.join(OUT, "uint8_nhwc")
+    os.makedirs(d)
+    u8 = torch.from_numpy(rng_for("variants/uint8_input").integers(0, 256, (1, S, S, 3)).astype(np.uint8))
+    w = RawPixels(net).eval()
+    t = Tapped(w, [("block1", "net.block1", "out"), ("block2", "net.block2", "out")])
+    path = os.path.join(d, "model.onnx")
+    with torch.no_grad():
+        torch.onnx.export(t, (u8,), path, input_names=["input"], output_names=["logits", "block1", "block2"], opset_version=13,
+                          do_constant_folding=True)
+    t.capture.remove()
+    m = onnx.load(path)
+    for o in [o for o in m.graph.output if o.name != "logits"]:
+        m.graph.output.remove(o)
+    onnx.checker.check_model(m)
+    assert m.graph.input[0].type.tensor_type.elem_type == onnx.TensorProto.UINT8
+    assert m.graph.node[0].op_type == "Cast", [n.op_type for n in m.graph.node[:4]]
+    onnx.save(m, path)
+    save_npy(os.path.join(d, "input.npy"), u8.numpy())
+    r = copy.deepcopy(w).double().eval()
+    taps = [("block1", "net.block1", "out"), ("block2", "net.block2", "out")]
+    cap = Capture(r, taps)
+    raw = u8.double().requires_grad_(True)  # the raw pixel values as float64: what the engine differentiates
+    z = r(raw)
+    acts = dict(cap.values)
+    cap.remove()
+    acts["input"] = raw
+    zs = z.detach().numpy()[0]
+    order = np.argsort(-zs)
+    checks = []
+    for layer, loss, target in [("block1", "logit", int(order[0])), ("block1", "ce", int(order[1])), ("block2", "logit", int(order[0])),
+                                ("block2", "ce", int(order[1])), ("input", "logit", int(order[0]))]:
+        s = z[0, target] if loss == "logit" else F.cross_entropy(z, torch.tensor([target]))
+        (g,) = torch.autograd.grad(s, acts[layer], retain_graph=True)
+        fname = f"grad_{layer}_{loss}_{target}.npy"
+        save_npy(os.path.join(d, fname), g.detach().numpy()[0])
+        checks.append({"layer": layer, "loss": loss, "target": target, "grad": f"uint8_nhwc/{fname}"})
+    return m, {"logits": [float(v) for v in zs], "checks": checks, "input": "uint8_nhwc/input.npy"}
+
+
 def raise_opset(m, opset):
     """PyTorch 1.13 and onnx 1.12 stop at opset 17; later opsets are written by hand. Of this
     net's ops only ReduceMean changed (18: axes attribute -> input; ONNX Changelog.md); 19-21 changed
@@ -388,6 +448,13 @@ def main():
                      "note": "int8 QDQ: per-channel int8 Conv weights and QuantizeLinear/DequantizeLinear on four activations; "
                              "reference: the same quantized net in PyTorch float64 with straight-through gradients", **own})
     print(f"variants/int8_qdq: opset 13 ops {' '.join(ops)}")
+
+    m, own = make_uint8_nhwc(net)
+    ops = sorted({n.op_type for n in m.graph.node})
+    variants.append({"name": "uint8_nhwc", "model": "uint8_nhwc/model.onnx", "opset": 13, "op_types": ops,
+                     "note": "uint8 NHWC raw pixels in, Cast/Div/Sub/Div/Transpose inside the graph; fed the 0-255 values as "
+                             "float32 (exact); reference: the same function in PyTorch float64, gradients also at the raw pixels", **own})
+    print(f"variants/uint8_nhwc: opset 13 ops {' '.join(ops)}")
 
     variants += make_windowed(OUT)
 

@@ -1,8 +1,10 @@
 /**
  * Every export variant of one small network (test-fixtures/variants, written by
  * test-fixtures/gen/make_variants.py): opsets 7–17, initializers listed as graph inputs, dynamic
- * axes, external data. All variants compute the same function, so each is checked against the
- * same PyTorch float64 autograd gradients at two layers (logit and cross-entropy seeds).
+ * axes, external data, NHWC and uint8 NHWC inputs, several outputs, float16, int8 QDQ, shifted-window
+ * transformers. Variants of the same function are checked against the same PyTorch float64
+ * autograd gradients at two layers (logit and cross-entropy seeds); the others (float16, int8
+ * QDQ, uint8 input, shifted windows) bring their own.
  */
 import { strict as assert } from 'node:assert';
 import { existsSync, readFileSync } from 'node:fs';
@@ -39,6 +41,7 @@ describe('export variants vs PyTorch float64 reference gradients (test-fixtures/
       const model = loadModel(path.join(DIR, v.model), { scores: v.scores_option });
       assert.equal(model.opset, v.opset);
       assert.equal(model.widenedFromFloat16, v.name === 'float16', 'float16 tensors are found and widened, and only there');
+      assert.equal(model.rawPixelInput, v.name === 'uint8_nhwc' ? 'uint8' : undefined, 'a uint8 input is fed as float, and only there');
       const input = await readNpy(path.join(DIR, v.input ?? refs!.input));
       const pm = await engine.prepare(model, input.shape);
       assert.equal(pm.scores.tensor, refs!.scores);
