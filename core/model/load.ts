@@ -105,7 +105,7 @@ export function modelFromBytes(bytes: Uint8Array, modelPath: string, opts: LoadO
   if (widenedFromFloat16) widenFloat16(proto);
   for (const t of proto.graph.initializer ?? []) checkTensorPayload(t, `${modelPath}: initializer '${t.name ?? ''}'`);
   refuseCustomOps(proto, modelPath);
-  const rawPixelInput = opts.anyInput ? undefined : floatFeedForBytes(proto, modelPath);
+  const rawPixelInput = opts.anyInput ? undefined : floatFeedForBytes(proto);
   checkUpgradable(proto.graph.node ?? [], opset, modelPath);
   const graph = indexGraph(proto.graph, modelPath);
   for (const n of graph.nodes) {

@@ -14,7 +14,7 @@ import { ModelProto, NodeProto, TensorType } from './proto';
  * type name. Otherwise (another type, or a consumer other than a Cast to float: the loader refuses
  * that input, see uint8InputHint) undefined.
  */
-export function floatFeedForBytes(model: ModelProto, modelPath: string): 'uint8' | undefined {
+export function floatFeedForBytes(model: ModelProto): 'uint8' | undefined {
   const g = model.graph;
   if (!g) return undefined;
   const inits = new Set((g.initializer ?? []).map((t) => t.name));
