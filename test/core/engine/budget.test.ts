@@ -4,7 +4,7 @@
  */
 import { strict as assert } from 'node:assert';
 import { Engine } from '../../../core/engine/engine';
-import { bytesPerSeed, liveGradientValues, seedChunkSize } from '../../../core/engine/budget';
+import { bytesPerSeed, liveGradientValues, RUN_BYTES, seedChunkSize } from '../../../core/engine/budget';
 import { modelFromBytes } from '../../../core/model/load';
 import { encodeModelProto, TensorType } from '../../../core/model/proto';
 import { floatTensor } from '../../../core/model/tensor';
@@ -40,6 +40,13 @@ describe('seed chunk size from the live gradients', () => {
     assert.equal(liveGradientValues(pm, ['a']), 264 + 256);
     assert.equal(bytesPerSeed(pm, ['a']), Math.ceil(520 * 4 * 1.5));
     assert.equal(seedChunkSize(pm, ['a'], 100 * bytesPerSeed(pm, ['a'])), 100);
+  });
+
+  it('a large budget still runs at most RUN_BYTES of seed rows per run, and never fewer than three', async () => {
+    const pm = await engine.prepare(model(), [1, 3, 8, 8]);
+    const per = bytesPerSeed(pm, ['a']);
+    assert.equal(seedChunkSize(pm, ['a'], 8 * RUN_BYTES), Math.floor(RUN_BYTES / per));
+    assert.equal(seedChunkSize(pm, ['a'], RUN_BYTES / 2), Math.floor(RUN_BYTES / 2 / per), 'a budget below the cap is the bound');
   });
 
   it('a budget below three seed rows is a user error naming the layer', async () => {
