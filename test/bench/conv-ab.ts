@@ -11,7 +11,7 @@
  *   opt-extended, opt-basic   graph optimization level 'extended' / 'basic' instead of 'all'
  *   arena       onnxruntime's CPU memory arena on
  *   spin        intra-op thread spinning on
- *   chunk<N>    seed rows per run capped at N (memory budget set to N rows)
+ *   chunk<N>    seed rows per run capped at N (memory budget set to N rows; runs never exceed RUN_BYTES)
  *   mib<N>      memory budget of N MiB per run
  * Levers combine with '+', e.g. polyphase+chunk64.
  *
