@@ -21,20 +21,22 @@ export function floatFeedForBytes(model: ModelProto): 'uint8' | undefined {
   const inputs = (g.input ?? []).filter((v) => !inits.has(v.name));
   if (inputs.length !== 1) return undefined;
   const tt = inputs[0].type?.tensor_type;
-  const kind = tt?.elem_type === TensorType.UINT8 ? 'uint8' as const : undefined;
   const rank = tt?.shape?.dim?.length ?? 0;
-  if (!kind || !tt || (rank !== 3 && rank !== 4)) return undefined;
+  if (!tt || tt.elem_type !== TensorType.UINT8 || (rank !== 3 && rank !== 4)) return undefined;
   const name = inputs[0].name ?? '';
-  const consumers: NodeProto[] = (g.node ?? []).filter((n) => (n.input ?? []).includes(name));
-  const castTo = (n: NodeProto) => Number((n.attribute ?? []).find((a) => a.name === 'to')?.i ?? -1);
-  if (!consumers.length || consumers.some((n) => n.op_type !== 'Cast' || castTo(n) !== TensorType.FLOAT)) return undefined;
+  const consumers = (g.node ?? []).filter((n) => (n.input ?? []).includes(name));
+  if (!consumers.length || !consumers.every(isCastToFloat)) return undefined;
   tt.elem_type = TensorType.FLOAT;
-  return kind;
+  return 'uint8';
 }
 
 /** The fix for a uint8 input that does not go through a Cast to float first, naming what it feeds. */
 export function uint8InputHint(model: ModelProto, input: string): string {
-  const n = (model.graph?.node ?? []).find((x) => (x.input ?? []).includes(input) && !(x.op_type === 'Cast' && Number((x.attribute ?? []).find((a) => a.name === 'to')?.i) === TensorType.FLOAT));
+  const n = (model.graph?.node ?? []).find((x) => (x.input ?? []).includes(input) && !isCastToFloat(x));
   const what = n ? `; here it feeds ${n.op_type} node '${n.name || '(unnamed)'}'${n.op_type === 'Cast' ? ' (a Cast to another type)' : ''}` : '';
   return `uint8 pixels are read when every consumer of the input is a Cast to float32${what}: export with x.float() as the first step, or with a float32 input`;
+}
+
+function isCastToFloat(n: NodeProto): boolean {
+  return n.op_type === 'Cast' && Number((n.attribute ?? []).find((a) => a.name === 'to')?.i ?? -1) === TensorType.FLOAT;
 }
