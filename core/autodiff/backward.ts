@@ -48,7 +48,9 @@ export function buildBackward(a: ModelAnalysis, req: BackwardRequest, b: GraphBu
     const p = parts.get(t);
     if (!p || p.length === 0) return undefined;
     if (p.length === 1) return p[0];
-    const sum = b.op1('Sum', p);
+    // A chain of binary Adds, not one Sum: onnxruntime fuses an Add into the Conv that makes one
+    // of its inputs (its NCHWc Conv accumulates into the other), but not a Sum.
+    const sum = p.slice(1).reduce((acc, x) => b.op1('Add', [acc, x]), p[0]);
     parts.set(t, [sum]);
     return sum;
   };

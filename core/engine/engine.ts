@@ -101,7 +101,7 @@ export class Engine {
     const rest = fetch.filter((f) => !out[f]);
     if (!rest.length) return out;
     const forward = fwd;
-    state.backward ??= createSession(encodeModelProto(typedBoundary(plan.backward, plan.boundary, forward)), what, this.options);
+    state.backward ??= createSession(encodeModelProto(typedBoundary(plan.backward, plan.boundary, forward)), what, this.options, true);
     state.backward.catch(() => { state.backward = undefined; });
     const session = await state.backward;
     const all: Record<string, ort.Tensor> = { ...feeds };

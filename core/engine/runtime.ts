@@ -5,8 +5,16 @@ import { UserError } from '../errors';
 export interface RuntimeOptions {
   /** Intra-op threads; 0 lets the runtime decide. */
   threads: number;
-  /** Keep freed buffers in onnxruntime's arena for the next run (faster reuse, memory held). Default off. */
-  arena?: boolean;
+  /**
+   * Which sessions keep freed buffers in onnxruntime's arena for their next run: 'sweeps' (the
+   * default) only the backward session of a split plan, which runs once per seed chunk at the
+   * same shapes; 'always' every session; 'never' none. Without the arena every large tensor is a
+   * fresh mmap whose pages fault on first touch, at every op of every chunk: on ResNet-18 the
+   * exact sweep at stage 2 took 0.82× the time with it (test/bench/conv-ab.ts, 2-core AMD EPYC,
+   * 3 Dec 2026), while the session holds about its peak between runs (+280 MiB RSS after the
+   * sweep, a lower peak). One-shot sessions (the first map, a forward) gain nothing from it.
+   */
+  arena?: 'sweeps' | 'always' | 'never';
   /**
    * Let idle intra-op threads spin between ops (onnxruntime's default). Off by default: when other
    * processes share the cores (the editor, a laptop's background work) a spinning pool waits on
@@ -21,16 +29,16 @@ export interface RuntimeOptions {
 
 export const defaultRuntimeOptions: RuntimeOptions = { threads: 0 };
 
-export async function createSession(bytes: Uint8Array, what: string, opts: RuntimeOptions = defaultRuntimeOptions): Promise<ort.InferenceSession> {
+/** `sweep`: the session runs once per seed chunk (a split plan's backward). */
+export async function createSession(bytes: Uint8Array, what: string, opts: RuntimeOptions = defaultRuntimeOptions, sweep = false): Promise<ort.InferenceSession> {
+  const arena = opts.arena ?? 'sweeps';
   try {
     return await ort.InferenceSession.create(bytes, {
       graphOptimizationLevel: opts.optimization ?? 'all',
       executionProviders: ['cpu'],
       ...(opts.threads ? { intraOpNumThreads: opts.threads } : {}),
       interOpNumThreads: 1,
-      // The arena keeps peak buffers of large seed batches alive between runs; without it memory
-      // returns to the system after each chunk (feasibility study finding).
-      enableCpuMemArena: opts.arena ?? false,
+      enableCpuMemArena: arena === 'always' || (arena === 'sweeps' && sweep),
       logSeverityLevel: 3,
       extra: { session: { intra_op: { allow_spinning: opts.spinning ? '1' : '0' } } },
     });

@@ -3,7 +3,7 @@
  * in its own process (so the peak is its own): calibrates core/engine/budget.ts.
  *
  * Usage: npx tsx test/bench/chunk-memory.ts <budget MiB> [layer]
- * Environment: ARENA=1 turns the arena on, THREADS=n (default 2), PROBE=K times a K-probe estimate instead.
+ * Environment: ARENA=1 turns the arena on for every session, ARENA=0 off for all (default: the sweep's backward only), THREADS=n (default 2), PROBE=K times a K-probe estimate instead.
  */
 import { Engine } from '../../core/engine/engine';
 import { explainMaps } from '../../core/methods/maps';
@@ -13,7 +13,7 @@ import { seedChunkSize } from '../../core/engine/budget';
 import { headBasis } from '../../core/methods/head-basis';
 (async () => {
   const budget = Number(process.argv[2]) * 2 ** 20; const layer = process.argv[3] ?? 'stage2';
-  const e = new Engine({ threads: Number(process.env.THREADS ?? 2), arena: process.env.ARENA === '1' });
+  const e = new Engine({ threads: Number(process.env.THREADS ?? 2), arena: process.env.ARENA === '1' ? 'always' : process.env.ARENA === '0' ? 'never' : 'sweeps' });
   const pm = await e.prepare(loadModel('.cache/bench/resnet18.onnx'), [1, 3, 224, 224]);
   const x = (await readNpy('.cache/bench/input.npy')).data as Float32Array;
   headBasis(pm);

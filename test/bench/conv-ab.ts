@@ -8,8 +8,10 @@
  * Variants (comma-separated, default product,polyphase):
  *   product     the engine as shipped (strided Conv input gradients as onnxruntime ConvTranspose)
  *   polyphase   strided Conv input gradients as polyphase stride-1 Convs (polyphase-conv.ts)
+ *   relu-where  the ReLU input gradient as Where(x > 0, g, 0) instead of g · float(x > 0)
  *   opt-extended, opt-basic   graph optimization level 'extended' / 'basic' instead of 'all'
- *   arena       onnxruntime's CPU memory arena on
+ *   arena       onnxruntime's CPU memory arena on for every session (default: the sweep's backward only)
+ *   no-arena    the arena off for every session
  *   spin        intra-op thread spinning on
  *   chunk<N>    seed rows per run capped at N (memory budget set to N rows; runs never exceed RUN_BYTES)
  *   mib<N>      memory budget of N MiB per run
@@ -27,23 +29,34 @@ import { loadModel } from '../../core/model/load';
 import { readNpy } from '../../core/io/npy';
 import { gradientRules } from '../../core/autodiff/rules';
 import { GradientRule } from '../../core/autodiff/rule';
-import { polyphaseConv, withConvRule } from './polyphase-conv';
+import { polyphaseConv } from './polyphase-conv';
+import { withRules } from './rule-swap';
 
-const productConv = gradientRules.Conv;
+interface Variant { name: string; rules: Record<string, GradientRule>; options: Partial<RuntimeOptions>; chunkRows?: number; chunkMiB?: number }
 
-interface Variant { name: string; rule: GradientRule; options: Partial<RuntimeOptions>; chunkRows?: number; chunkMiB?: number }
+const productRelu = gradientRules.Relu;
+
+/** The ReLU input gradient as Where(x > 0, g, 0), the form shipped before the float-mask Mul. */
+const reluWhere: GradientRule = (ctx) => {
+  const g = ctx.gradOut[0];
+  if (!g || !ctx.needs[0] || ctx.relu === 'guided') return productRelu(ctx);
+  const { b } = ctx;
+  return [b.op1('Where', [b.op1('Greater', [ctx.node.inputs[0], b.scalarF(0)]), g, b.scalarF(0)])];
+};
 
 function variant(name: string): Variant {
   if (name.includes('+')) {
     const parts = name.split('+').map(variant);
-    return parts.reduce((a, p) => ({ name, rule: p.rule !== productConv ? p.rule : a.rule, options: { ...a.options, ...p.options }, chunkRows: p.chunkRows ?? a.chunkRows, chunkMiB: p.chunkMiB ?? a.chunkMiB }), { name, rule: productConv, options: {} } as Variant);
+    return parts.reduce((a, p) => ({ name, rules: { ...a.rules, ...p.rules }, options: { ...a.options, ...p.options }, chunkRows: p.chunkRows ?? a.chunkRows, chunkMiB: p.chunkMiB ?? a.chunkMiB }), { name, rules: {}, options: {} } as Variant);
   }
-  const v: Variant = { name, rule: productConv, options: {} };
+  const v: Variant = { name, rules: {}, options: {} };
   if (name === 'product') return v;
-  if (name === 'polyphase') return { ...v, rule: polyphaseConv };
+  if (name === 'polyphase') return { ...v, rules: { Conv: polyphaseConv } };
+  if (name === 'relu-where') return { ...v, rules: { Relu: reluWhere } };
   if (name === 'opt-extended') return { ...v, options: { optimization: 'extended' } };
   if (name === 'opt-basic') return { ...v, options: { optimization: 'basic' } };
-  if (name === 'arena') return { ...v, options: { arena: true } };
+  if (name === 'arena') return { ...v, options: { arena: 'always' } };
+  if (name === 'no-arena') return { ...v, options: { arena: 'never' } };
   if (name === 'spin') return { ...v, options: { spinning: true } };
   const chunk = /^chunk(\d+)$/.exec(name);
   if (chunk) return { ...v, chunkRows: Number(chunk[1]) };
@@ -75,7 +88,7 @@ async function main(): Promise<void> {
     for (const v of order) {
       const engine = new Engine({ threads: 2, ...v.options });
       try {
-        await withConvRule(v.rule, async () => {
+        await withRules(v.rules, async () => {
           const pm = await engine.prepare(model, [1, 3, 224, 224]);
           headBasis(pm);
           const budgetBytes = v.chunkRows ? v.chunkRows * bytesPerSeed(pm, [layer]) : v.chunkMiB ? v.chunkMiB * 2 ** 20 : undefined;

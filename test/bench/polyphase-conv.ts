@@ -30,13 +30,6 @@ export const polyphaseConv: GradientRule = (ctx) => {
   return [reshapeGrad(ctx, polyphaseInputGradient(ctx, gy, node.inputs[1], ws, attrInt(node, 'group', 1), xs, ys.slice(2), phases), xs)];
 };
 
-/** Runs `fn` with the registry's Conv rule swapped for `rule` (bench and tests only). */
-export async function withConvRule<T>(rule: GradientRule, fn: () => Promise<T>): Promise<T> {
-  const rules = gradientRules as Record<string, GradientRule>;
-  rules.Conv = rule;
-  try { return await fn(); } finally { rules.Conv = productConv; }
-}
-
 /** One output phase r of one spatial axis: a stride-1 Conv over g with some of the kernel's taps. */
 export interface AxisPhase {
   /** Kernel taps that write to input positions ≡ r (mod s), in the order the Conv reads them (reversed). */

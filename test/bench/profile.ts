@@ -15,7 +15,8 @@ import { loadModel } from '../../core/model/load';
 import { composePlan } from '../../core/plan/compose';
 import { readNpy } from '../../core/io/npy';
 import { mulberry32 } from '../../core/metrics/random';
-import { polyphaseConv, withConvRule } from './polyphase-conv';
+import { polyphaseConv } from './polyphase-conv';
+import { withRules } from './rule-swap';
 import { gradientRules } from '../../core/autodiff/rules';
 
 interface Event { cat: string; name: string; dur: number; args?: { op_name?: string } }
@@ -23,7 +24,7 @@ interface Event { cat: string; name: string; dur: number; args?: { op_name?: str
 async function profiled(bytes: Uint8Array, feeds: Record<string, ort.Tensor>, runs: number, tag: string): Promise<Event[]> {
   const prefix = path.join(os.tmpdir(), `ff-profile-${process.pid}-${tag}`);
   const s = await ort.InferenceSession.create(bytes, {
-    intraOpNumThreads: Number(process.env.THREADS ?? 2), interOpNumThreads: 1, graphOptimizationLevel: 'all', enableCpuMemArena: false,
+    intraOpNumThreads: Number(process.env.THREADS ?? 2), interOpNumThreads: 1, graphOptimizationLevel: 'all', enableCpuMemArena: true, // as the sweep's backward session runs (runtime.ts)
     enableProfiling: true, profileFilePrefix: prefix,
   });
   const fed = Object.fromEntries(Object.entries(feeds).filter(([k]) => s.inputNames.includes(k)));
@@ -69,7 +70,7 @@ async function main(): Promise<void> {
   const pm = await engine.prepare(loadModel(path.join(cache, `${arch}.onnx`)), [1, 3, 224, 224]);
   const x = (await readNpy(path.join(cache, 'input.npy'))).data as Float32Array;
   const rule = form === 'polyphase' ? polyphaseConv : gradientRules.Conv;
-  const plan = await withConvRule(rule, async () => composePlan(pm, { passes: [{ relu: 'standard', layers: [layer], heads: ['mismatch'] }] }));
+  const plan = await withRules({ Conv: rule }, async () => composePlan(pm, { passes: [{ relu: 'standard', layers: [layer], heads: ['mismatch'] }] }));
   const R = pm.scores.numClasses;
   const rand = mulberry32(1);
   const base = Float32Array.from({ length: k * R }, () => (rand() < 0.5 ? -1 : 1));

@@ -18,7 +18,8 @@ import { decodeModelProto } from '../../../../core/model/proto';
 import { mulberry32 } from '../../../../core/metrics/random';
 import { relL2 } from '../../../helpers';
 import { gradientRules } from '../../../../core/autodiff/rules';
-import { polyphaseConv, withConvRule } from '../../../bench/polyphase-conv';
+import { polyphaseConv } from '../../../bench/polyphase-conv';
+import { withRules } from '../../../bench/rule-swap';
 
 interface ConvCase {
   name: string; x: number[]; w: number[]; strides?: number[]; pads?: number[]; dilations?: number[]; group?: number; autoPad?: string;
@@ -135,7 +136,7 @@ for (const form of ['product', 'polyphase'] as const) {
         // At stride 1, pads beyond (k−1)·d leave the flipped-kernel Conv a negative pad, so both forms keep ConvTranspose there.
         const nd = c.x.length - 2;
         const padBeyond = (c.pads ?? []).some((p, i) => p > (c.w[2 + (i % nd)] - 1) * (c.dilations?.[i % nd] ?? 1));
-        await withConvRule(form === 'product' ? gradientRules.Conv : polyphaseConv, async () => {
+        await withRules({ Conv: form === 'product' ? gradientRules.Conv : polyphaseConv }, async () => {
           const got = (await gradientsAt(engine, pm, x, ['x'], { base: seed, coef: new Float32Array(1), k: 1 })).get('x')!.data;
           assert.ok(relL2(got, ref) < 1e-5, `rel L2 ${relL2(got, ref)}`);
           // The product uses ConvTranspose exactly where the stride is above 1; polyphase only where stride 1 needs it.
