@@ -25,12 +25,14 @@ export interface CompiledPlan {
   /** The whole plan; for a split plan, its forward graph. */
   session: ort.InferenceSession;
   /** A split plan's backward session (made on the first run, typed by the forward's outputs) and the last forward. */
-  split?: { backward?: Promise<ort.InferenceSession>; last?: { input: Float32Array; out: Record<string, ort.Tensor> } };
+  split?: { backward?: Promise<ort.InferenceSession>; running?: Promise<unknown>; last?: { input: Float32Array; out: Record<string, ort.Tensor> } };
 }
 
 export class Engine {
   private readonly prepared = new Map<string, Promise<PreparedModel>>();
   private readonly compiled = new Map<string, Promise<CompiledPlan>>();
+  /** The split plan whose backward session holds its memory arena (at most one; runtime.ts). */
+  private sweepHolder?: CompiledPlan;
 
   constructor(readonly options: RuntimeOptions = defaultRuntimeOptions, private readonly maxSessions = 8) {}
 
@@ -101,13 +103,40 @@ export class Engine {
     const rest = fetch.filter((f) => !out[f]);
     if (!rest.length) return out;
     const forward = fwd;
-    state.backward ??= createSession(encodeModelProto(typedBoundary(plan.backward, plan.boundary, forward)), what, this.options, true);
-    state.backward.catch(() => { state.backward = undefined; });
+    if (!state.backward) {
+      this.releaseSweepHolder();
+      this.sweepHolder = cp;
+      state.backward = createSession(encodeModelProto(typedBoundary(plan.backward, plan.boundary, forward)), what, this.options, true);
+      state.backward.catch(() => { state.backward = undefined; });
+    }
     const session = await state.backward;
     const all: Record<string, ort.Tensor> = { ...feeds };
     for (const t of plan.boundary) all[t] = forward[t];
     const given = Object.fromEntries(session.inputNames.map((n) => [n, all[n]]));
-    return Object.assign(out, await runSession(session, given, rest, what));
+    const running = runSession(session, given, rest, what);
+    state.running = running.catch(() => undefined);
+    return Object.assign(out, await running);
+  }
+
+  /**
+   * A sweep session keeps about its peak memory between runs, so only the latest sweep's does:
+   * the previous one is released once its last run has finished (a cancelled run still runs
+   * natively), and made again if its plan sweeps again (about a second on ResNet-18).
+   */
+  private releaseSweepHolder(): void {
+    const held = this.sweepHolder?.split;
+    this.sweepHolder = undefined;
+    if (!held?.backward) return;
+    const session = held.backward, running = held.running;
+    held.backward = undefined;
+    void (async () => { await running; await (await session).release(); })().catch(() => undefined);
+  }
+
+  /** How many compiled split plans hold a backward session now (at most one). */
+  async sweepSessions(): Promise<number> {
+    let n = 0;
+    for (const c of this.compiled.values()) if ((await c.catch(() => undefined))?.split?.backward) n++;
+    return n;
   }
 
   /** Plain forward pass: the scores (logits) of one input. */
@@ -143,7 +172,11 @@ export class Engine {
 
 async function releaseCompiled(c: CompiledPlan): Promise<void> {
   await c.session.release();
-  if (c.split?.backward) await (await c.split.backward).release();
+  const backward = c.split?.backward;
+  if (!backward) return;
+  c.split!.backward = undefined;
+  await c.split!.running;
+  await (await backward).release();
 }
 
 function sameValues(a: Float32Array, b: Float32Array): boolean {
