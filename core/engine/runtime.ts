@@ -10,9 +10,10 @@ export interface RuntimeOptions {
    * default) only the backward session of a split plan, which runs once per seed chunk at the
    * same shapes; 'always' every session; 'never' none. Without the arena every large tensor is a
    * fresh mmap whose pages fault on first touch, at every op of every chunk: on ResNet-18 the
-   * exact sweep at stage 2 took 0.82× the time with it (test/bench/conv-ab.ts, 2-core AMD EPYC,
-   * 3 Dec 2026), while the session holds about its peak between runs (+280 MiB RSS after the
-   * sweep, a lower peak). One-shot sessions (the first map, a forward) gain nothing from it.
+   * exact sweep at stage 2 took 0.79× the time with it (test/bench/conv-ab.ts, 2-core AMD EPYC,
+   * 3 Dec 2026), while the session holds about its peak between runs (about +300 MiB RSS after
+   * the sweep, a peak 80 MiB lower: test/bench/chunk-memory.ts); the engine keeps one such
+   * session. One-shot sessions (the first map, a forward) gain nothing from it.
    */
   arena?: 'sweeps' | 'always' | 'never';
   /**
