@@ -25,7 +25,7 @@ export interface CompiledPlan {
   /** The whole plan; for a split plan, its forward graph. */
   session: ort.InferenceSession;
   /** A split plan's backward session (made on the first run, typed by the forward's outputs) and the last forward. */
-  split?: { backward?: Promise<ort.InferenceSession>; running?: Promise<unknown>; last?: { input: Float32Array; out: Record<string, ort.Tensor> } };
+  split?: { backward?: Promise<ort.InferenceSession>; inFlight: Set<Promise<unknown>>; last?: { input: Float32Array; out: Record<string, ort.Tensor> } };
 }
 
 export class Engine {
@@ -58,7 +58,7 @@ export class Engine {
         const plan = composePlan(pm, req);
         const bytes = plan.split ? encodeModelProto(plan.split.forward) : plan.bytes;
         const session = await createSession(bytes, `the explanation plan for ${pm.model.path}`, this.options);
-        return { plan, session, split: plan.split ? {} : undefined };
+        return { plan, session, split: plan.split ? { inFlight: new Set<Promise<unknown>>() } : undefined };
       })();
       this.compiled.set(key, c);
       c.catch(() => this.compiled.delete(key));
@@ -109,13 +109,18 @@ export class Engine {
       state.backward = createSession(encodeModelProto(typedBoundary(plan.backward, plan.boundary, forward)), what, this.options, true);
       state.backward.catch(() => { state.backward = undefined; });
     }
-    const session = await state.backward;
-    const all: Record<string, ort.Tensor> = { ...feeds };
-    for (const t of plan.boundary) all[t] = forward[t];
-    const given = Object.fromEntries(session.inputNames.map((n) => [n, all[n]]));
-    const running = runSession(session, given, rest, what);
-    state.running = running.catch(() => undefined);
-    return Object.assign(out, await running);
+    const backward = state.backward;
+    // Registered before the first await, so that a release waits for this run.
+    const run = (async () => {
+      const session = await backward;
+      const all: Record<string, ort.Tensor> = { ...feeds };
+      for (const t of plan.boundary) all[t] = forward[t];
+      const given = Object.fromEntries(session.inputNames.map((n) => [n, all[n]]));
+      return runSession(session, given, rest, what);
+    })();
+    const settled = run.catch(() => undefined).finally(() => state.inFlight.delete(settled));
+    state.inFlight.add(settled);
+    return Object.assign(out, await run);
   }
 
   /**
@@ -127,9 +132,9 @@ export class Engine {
     const held = this.sweepHolder?.split;
     this.sweepHolder = undefined;
     if (!held?.backward) return;
-    const session = held.backward, running = held.running;
+    const session = held.backward, running = [...held.inFlight];
     held.backward = undefined;
-    void (async () => { await running; await (await session).release(); })().catch(() => undefined);
+    void (async () => { await Promise.all(running); await (await session).release(); })().catch(() => undefined);
   }
 
   /** How many compiled split plans hold a backward session now (at most one). */
@@ -175,7 +180,7 @@ async function releaseCompiled(c: CompiledPlan): Promise<void> {
   const backward = c.split?.backward;
   if (!backward) return;
   c.split!.backward = undefined;
-  await c.split!.running;
+  await Promise.all([...c.split!.inFlight]);
   await (await backward).release();
 }
 
