@@ -12,6 +12,22 @@ export function defaultFactFoil(prediction: readonly Prediction[], labelCount: n
   return { fact, foil: runnerUp ?? (fact + 1) % Math.max(labelCount, 1) };
 }
 
+/**
+ * Fact and foil after the prediction changed (new preprocessing or labels): a class the user
+ * picked stays while it still exists, the other follows the new defaults; when the two meet, the
+ * one not picked moves to the most probable other class.
+ */
+export function keptFactFoil(current: { fact: number; foil: number }, picked: { fact: boolean; foil: boolean },
+  prediction: readonly Prediction[], labelCount: number, expected?: number): { fact: number; foil: number } {
+  const d = defaultFactFoil(prediction, labelCount, expected);
+  const keep = (which: 'fact' | 'foil') => picked[which] && current[which] < labelCount;
+  const fact = keep('fact') ? current.fact : d.fact;
+  const foil = keep('foil') ? current.foil : d.foil;
+  if (fact !== foil || labelCount < 2) return { fact, foil };
+  const other = (of: number) => rankedClasses(prediction, labelCount).find((i) => i !== of)!;
+  return keep('fact') ? { fact, foil: other(fact) } : { fact: other(foil), foil };
+}
+
 /** All class indices, ranked by probability first, then the unranked rest in label order. */
 export function rankedClasses(prediction: readonly Prediction[], labelCount: number): number[] {
   const seen = new Set<number>();

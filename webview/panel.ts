@@ -4,7 +4,7 @@
  * The panel: holds what is being asked (kind, variant, fact, foil, layer), asks the host for maps,
  * and keeps every view in step with that state. Views only draw and report user actions.
  */
-import { defaultFactFoil, rankedClasses, stepClass } from './class-order';
+import { defaultFactFoil, keptFactFoil, rankedClasses, stepClass } from './class-order';
 import { isDiverging } from './colormap';
 import { clear, h } from './dom';
 import type { HostLink } from './host-link';
@@ -44,6 +44,8 @@ export class Panel {
   private ctx?: Context;
   private readonly store = new MapStore();
   private sel: Selection = { kind: 'contrast', contrastVariant: 'margin', mismatchVariant: 'weighted', fact: 0, foil: 1 };
+  /** Whether the user chose the fact or the foil (kept when new settings change the prediction). */
+  private picked = { fact: false, foil: false };
   private layerId?: string;
   private allLayers = false;
   private showMap = true;
@@ -125,7 +127,7 @@ export class Panel {
     this.tray = new PinTray({
       remove: (p) => { this.pins = this.pins.filter((q) => q !== p); this.render(); },
       save: (p) => this.save(p.map, PinTray.rangesFor(this.pins, this.prefs.sharedScale)[this.pins.indexOf(p)]),
-      open: (p) => { this.sel = { ...p.selection }; this.layerId = p.map.data.layer; this.ensureMaps(); this.render(); },
+      open: (p) => { this.sel = { ...p.selection }; this.picked = { fact: true, foil: true }; this.layerId = p.map.data.layer; this.ensureMaps(); this.render(); },
       toggleShared: (v) => { this.prefs.sharedScale = v; this.savePrefs(); this.render(); },
     });
     this.drawer = new SettingsDrawer({
@@ -232,8 +234,7 @@ export class Panel {
         this.ctx = { ...this.ctx, settings: m.settings, labels: m.labels, prediction: m.prediction, expected: m.expected, image: m.image, ...(m.origin ? { origin: m.origin } : {}) };
         this.store.clear();
         this.activeMapsId = undefined;
-        const d = defaultFactFoil(m.prediction, m.labels.length, m.expected);
-        this.sel = { ...this.sel, ...d };
+        this.sel = { ...this.sel, ...keptFactFoil(this.sel, this.picked, m.prediction, m.labels.length, m.expected) };
         this.viewer.setImage(m.image);
         this.status.show({ kind: 'info', message: 'Settings applied; maps recomputed with the new preprocessing.' });
         this.ensureMaps();
@@ -281,6 +282,7 @@ export class Panel {
     this.ctx = ctx;
     this.store.clear();
     this.pins = [];
+    this.picked = { fact: false, foil: false };
     const d = defaultFactFoil(m.prediction, m.labels.length, m.expected);
     this.sel = {
       kind: defaults?.kind ?? this.sel.kind,
@@ -419,7 +421,8 @@ export class Panel {
 
   private setFact(i: number): void {
     let { foil } = this.sel;
-    if (foil === i) foil = this.sel.fact; // swap, so fact and foil never coincide
+    if (foil === i) { foil = this.sel.fact; this.picked.foil = true; } // swap, so fact and foil never coincide
+    this.picked.fact = true;
     this.sel = { ...this.sel, fact: i, foil };
     if (!usesFact(this.sel.kind)) this.sel.kind = 'evidence';
     this.afterSelection();
@@ -429,6 +432,7 @@ export class Panel {
   private setFoil(i: number): void {
     if (i === this.sel.fact) return;
     const fromMismatch = this.sel.kind === 'mismatch';
+    this.picked.foil = true;
     this.sel = { ...this.sel, foil: i };
     if (!usesFoil(this.sel.kind)) {
       this.sel.kind = 'contrast';

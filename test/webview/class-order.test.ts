@@ -1,5 +1,5 @@
 import { strict as assert } from 'node:assert';
-import { defaultFactFoil, rankedClasses, searchLabels, stepClass } from '../../webview/class-order';
+import { defaultFactFoil, keptFactFoil, rankedClasses, searchLabels, stepClass } from '../../webview/class-order';
 import { keyLabel, commandForKey, KEY_BINDINGS } from '../../webview/key-bindings';
 import { questionFor, questionText } from '../../webview/question';
 import { LABELS, PREDICTION, idx } from './harness/synthetic-scene';
@@ -11,6 +11,19 @@ describe('panel class order, keys and questions', () => {
     assert.deepEqual(defaultFactFoil(PREDICTION, 8, idx('bearing')), { fact: idx('washer'), foil: idx('bearing') });
     assert.deepEqual(defaultFactFoil(PREDICTION, 8, idx('washer')), { fact: idx('washer'), foil: idx('bearing') });
     assert.deepEqual(defaultFactFoil(PREDICTION, 8, idx('clip')), { fact: idx('washer'), foil: idx('clip') });
+  });
+
+  it('after new settings keeps the classes the user picked, and only those', () => {
+    const now = { fact: idx('washer'), foil: idx('bolt') };
+    const gear = [{ index: idx('gear'), label: 'gear', p: 0.6 }, ...PREDICTION.filter((p) => p.index !== idx('gear'))];
+    assert.deepEqual(keptFactFoil(now, { fact: false, foil: true }, gear, 8), { fact: idx('gear'), foil: idx('bolt') }, 'the fact follows the new top-1');
+    assert.deepEqual(keptFactFoil(now, { fact: false, foil: false }, gear, 8), defaultFactFoil(gear, 8));
+    assert.deepEqual(keptFactFoil(now, { fact: true, foil: true }, gear, 8), now);
+    // the new top-1 is the picked foil: the fact moves to the most probable other class
+    const bolt = [{ index: idx('bolt'), label: 'bolt', p: 0.7 }, ...PREDICTION.filter((p) => p.index !== idx('bolt'))];
+    assert.deepEqual(keptFactFoil(now, { fact: false, foil: true }, bolt, 8), { fact: idx('washer'), foil: idx('bolt') });
+    // a picked class past the end of a shorter label list falls back to the default
+    assert.deepEqual(keptFactFoil({ fact: 7, foil: 6 }, { fact: true, foil: true }, PREDICTION.filter((p) => p.index < 4), 4), defaultFactFoil(PREDICTION.filter((p) => p.index < 4), 4));
   });
 
   it('steps foils by probability, skipping the fact and wrapping', () => {

@@ -421,10 +421,13 @@ describe('panel in headless Chromium', function () {
     await p.close();
   });
 
-  it('edits preprocessing and labels in the drawer and sends one update', async () => {
+  it('edits preprocessing and labels in the drawer and sends one update, keeping the foil the user chose', async () => {
     const p = await browser.open('vscode-light', { width: 1000, height: 900 });
     const { page, host } = p;
     await host.waitFor('requestMaps');
+    await page.keyboard.press('ArrowRight'); // the next foil by probability: hex-nut
+    const picked = await host.waitFor('requestMaps', 2);
+    assert.equal(picked.foil, idx('hex-nut'));
     // The page is sandboxed like VS Code's webview without allow-forms: a form's submit never
     // reaches its handler (HTML, form submission algorithm: sandboxed forms flag). The canary
     // shows the harness really blocks it, so the drawer cannot rely on a form.
@@ -459,9 +462,12 @@ describe('panel in headless Chromium', function () {
       preprocessing: { width: MODEL, height: MODEL, resize: 'crop', channels: 'RGB', layout: 'NCHW', scale: 1 / 127.5, mean: [1, 1, 1], std: [1, 1, 1] },
       labelsFile: '/work/parts/labels-v2.txt',
     });
-    // the host answers with the new prediction; the panel asks for the maps again
-    await host.waitFor('requestMaps', 2);
+    // the host answers with the new prediction; the panel asks for the maps again, for the same foil
+    const again = await host.waitFor('requestMaps', 3);
+    assert.equal(again.foil, idx('hex-nut'), 'new settings keep the foil the user picked');
+    assert.equal(again.fact, idx('washer'));
     await page.waitForFunction(() => /55\.0%/.test(document.querySelector('.ff-pred.is-fact')?.textContent ?? ''));
+    assert.match(await text(page, '#ff-trust'), /contrast with hex-nut/, 'the trust line names the same foil');
     assertClean(p);
     await p.close();
   });
