@@ -7,7 +7,8 @@ import * as path from 'node:path';
 import * as vscode from 'vscode';
 import type { EngineClient } from './engine-client';
 import { PANEL_VIEW_TYPE } from './ids';
-import { PanelRelay, PanelUi, ProgressHandle, RelayLog } from './panel-relay';
+import { delayedProgress, OpenNotification } from './delayed-progress';
+import { PanelRelay, PanelUi, RelayLog } from './panel-relay';
 import { FactfoilSettings } from './settings';
 import { makeNonce, panelHtml } from './webview-html';
 
@@ -19,36 +20,13 @@ export interface PanelHostDeps {
   saveFolder(image: string): string | undefined;
 }
 
-/** Progress notifications appear only for work that lasts: short sweeps would just flicker. */
-const PROGRESS_DELAY_MS = 400;
-
-function delayedProgress(title: string, onCancel: () => void): ProgressHandle {
-  let last: { done: number; total: number; message?: string } | undefined;
-  let reporter: vscode.Progress<{ message?: string; increment?: number }> | undefined;
-  let shown = 0;
-  let finish: () => void = () => undefined;
-  let ended = false;
-  const push = () => {
-    if (!reporter || !last || last.total <= 0) return;
-    const pct = (100 * last.done) / last.total;
-    // Whole steps only: some runs report fractions of a step.
-    reporter.report({ increment: pct - shown, message: `${Math.floor(last.done)}/${Math.round(last.total)}${last.message ? ` · ${last.message}` : ''}` });
-    shown = pct;
-  };
-  const timer = setTimeout(() => {
-    if (ended) return;
-    void vscode.window.withProgress({ location: vscode.ProgressLocation.Notification, title, cancellable: true }, (progress, token) => {
-      reporter = progress;
-      token.onCancellationRequested(onCancel);
-      push();
-      return new Promise<void>((resolve) => { finish = resolve; });
-    });
-  }, PROGRESS_DELAY_MS);
-  return {
-    report: (done, total, message) => { last = { done, total, message }; push(); },
-    end: () => { ended = true; clearTimeout(timer); finish(); },
-  };
-}
+/** A cancellable progress notification of the editor. */
+const editorNotification: OpenNotification = (title, onCancel, run) => {
+  void vscode.window.withProgress({ location: vscode.ProgressLocation.Notification, title, cancellable: true }, (progress, token) => {
+    token.onCancellationRequested(onCancel);
+    return run(progress);
+  });
+};
 
 export function revealFile(file: string): void {
   const uri = vscode.Uri.file(file);
@@ -86,7 +64,7 @@ export class PanelHost {
       title: `Factfoil: ${path.basename(image)}`,
     });
     const ui: PanelUi = {
-      startProgress: delayedProgress,
+      startProgress: (title, onCancel) => delayedProgress(title, onCancel, () => panel.visible, editorNotification),
       saved: (files, message) => {
         void vscode.window.showInformationMessage(message, 'Reveal').then((choice) => { if (choice === 'Reveal' && files[0]) revealFile(files[0]); });
       },

@@ -22,7 +22,7 @@ export interface ProgressHandle {
 }
 
 export interface PanelUi {
-  /** A cancellable progress notification (long exact sweeps). */
+  /** A cancellable progress notification for long exact sweeps, shown while the panel is out of sight. */
   startProgress(title: string, onCancel: () => void): ProgressHandle;
   /** Tell the user where the files went, with a way to reveal them. */
   saved(files: string[], message: string): void;

@@ -6,7 +6,8 @@
  *   side by side; save twice (the second save gets -2, nothing is overwritten); the Preprocessing
  *   and labels drawer's Apply writes the model's settings file; run a trust check and save its
  *   report; the folder's model is used again without asking; a broken .onnx fails cleanly and is
- *   not remembered; a 1000-class model opens with the labels.txt beside it.
+ *   not remembered; a 1000-class model opens with the labels.txt beside it and sweeps all its
+ *   classes for the exact mismatch map.
  * Screenshots of the key steps go to test-output/e2e/.
  *
  * Needs `scripts/install-code-server.sh` and `npm run package` first; run with `npm run test:e2e`.
@@ -519,6 +520,16 @@ describe('end to end in code-server: every panel action', function () {
       assert.ok(CATALOG_LABELS.includes(fact), `the fact is a label from labels.txt (${fact})`);
       assert.doesNotMatch(await f.locator('main.ff-panel').innerText(), /\bclass \d+\b/, 'no generated class names');
       await shot('08-catalog-panel');
+    });
+    await step('mismatch over the 1000 classes: the exact map arrives in the panel', 180, async () => {
+      const f = await panelFor('part-0001.png', 30_000);
+      const before = await mapId(f);
+      await f.locator('.ff-viewer').click();
+      await page.keyboard.press('3');
+      await newMap(f, before, 150);
+      await f.locator('.ff-estimate', { hasText: /^exact$/ }).waitFor({ timeout: 150_000 });
+      assert.equal(await f.locator('.ff-kind[aria-pressed="true"]').getAttribute('data-kind'), 'mismatch');
+      assert.match(await question(f), /all classes/);
     });
 
     await step('switch to the light theme and take a screenshot', 60, async () => {
