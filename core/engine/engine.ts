@@ -131,10 +131,7 @@ export class Engine {
   private releaseSweepHolder(): void {
     const held = this.sweepHolder?.split;
     this.sweepHolder = undefined;
-    if (!held?.backward) return;
-    const session = held.backward, running = [...held.inFlight];
-    held.backward = undefined;
-    void (async () => { await Promise.all(running); await (await session).release(); })().catch(() => undefined);
+    if (held) releaseBackward(held).catch(() => undefined);
   }
 
   /** How many compiled split plans hold a backward session now (at most one). */
@@ -177,10 +174,18 @@ export class Engine {
 
 async function releaseCompiled(c: CompiledPlan): Promise<void> {
   await c.session.release();
-  const backward = c.split?.backward;
+  if (c.split) await releaseBackward(c.split);
+}
+
+/**
+ * Drops a split plan's backward session at once (its next run makes a new one) and releases it
+ * when the runs in flight on it have finished.
+ */
+async function releaseBackward(split: NonNullable<CompiledPlan['split']>): Promise<void> {
+  const backward = split.backward;
   if (!backward) return;
-  c.split!.backward = undefined;
-  await Promise.all([...c.split!.inFlight]);
+  split.backward = undefined;
+  await Promise.all([...split.inFlight]);
   await (await backward).release();
 }
 
