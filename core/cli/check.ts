@@ -8,6 +8,7 @@ import * as path from 'node:path';
 import sharp from 'sharp';
 import { Engine } from '../engine/engine';
 import { UserError } from '../errors';
+import { ensureOutputFolder } from '../io/atomic';
 import { writeUniqueFiles } from '../io/naming';
 import { resolveClass } from '../io/labels';
 import { findMask, ImageItem } from '../io/masks';
@@ -57,6 +58,7 @@ function parseList<T extends string>(arg: string | undefined, allowed: readonly 
 
 export async function checkCommand(engine: Engine, args: CliArgs): Promise<number> {
   const v = args.values;
+  if (v.out) ensureOutputFolder(v.out);
   const ctx = await openModelNoting(engine, modelPath(args), v.labels);
   const tests = parseList<TrustTest>(v.tests, TRUST_TESTS, 'check');
   const kinds = parseList<TrustMapKind>(v.map, TRUST_MAP_KINDS, 'map kind');

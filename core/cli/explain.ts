@@ -10,6 +10,7 @@ import { imageInput, tensorInput, ModelInput } from '../workflow/model-input';
 import { softmax, ranked } from '../workflow/prediction';
 import { saveMap } from '../workflow/save-map';
 import { resolveClass, expectedLabelFromPath } from '../io/labels';
+import { ensureOutputFolder } from '../io/atomic';
 import { CliArgs, modelPath, resolveLayer } from './args';
 
 const IMAGE_EXT = /\.(png|jpe?g|webp|tiff?|gif|avif)$/i;
@@ -41,6 +42,7 @@ function parseEstimate(arg: string | undefined): Estimate {
 
 export async function explainCommand(engine: Engine, args: CliArgs): Promise<number> {
   const v = args.values;
+  if (v.out) ensureOutputFolder(v.out);
   const ctx = await openModelNoting(engine, modelPath(args), v.labels);
   const kinds = (v.map ?? 'contrast').split(',') as MapKind[];
   for (const k of kinds) if (!MAP_KINDS.includes(k)) throw new UserError(`unknown map kind '${k}'`, `choose from ${MAP_KINDS.join(', ')}`);

@@ -1,4 +1,4 @@
-import { promises as fsp } from 'fs';
+import { promises as fsp, mkdirSync, Stats, statSync } from 'fs';
 import * as path from 'path';
 import { randomBytes } from 'crypto';
 import { UserError } from '../errors';
@@ -104,5 +104,18 @@ async function removeQuietly(file: string): Promise<void> {
     await fsp.unlink(file);
   } catch {
     // already gone (renamed) or never created
+  }
+}
+
+/**
+ * `--out <dir>`: made when missing (with its parents) before any work, so a long run never
+ * fails at its first write. Making a folder overwrites nothing.
+ */
+export function ensureOutputFolder(dir: string): void {
+  let st: Stats | undefined;
+  try { st = statSync(dir); } catch (e) { if (errnoCode(e) !== 'ENOENT') throw fsUserError(e, 'write', dir); }
+  if (st && !st.isDirectory()) throw new UserError(`cannot write into ${dir}: it is a file, not a folder`, 'give a folder for --out');
+  if (!st) {
+    try { mkdirSync(dir, { recursive: true }); } catch (e) { throw fsUserError(e, 'write', dir); }
   }
 }

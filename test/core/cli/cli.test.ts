@@ -53,6 +53,22 @@ describe('factfoil CLI', () => {
     assert.match(second.outputs[0].png, /-2\.png$/);
   });
 
+  it('explain --out makes a missing output folder before any work, and refuses a file there in one line', () => {
+    const dir = mkdtempSync(path.join(tmpdir(), 'ff-'));
+    const image = path.join(FIXTURES, 'parts/demo/bearing/bearing-0002.png');
+    const out = path.join(dir, 'maps', 'run-1');
+    const r = run(['explain', image, '--model', path.join(FIXTURES, 'parts/parts-sorter.onnx'), '--layer', 'last', '--out', out, '--json']);
+    assert.equal(r.status, 0, r.stderr);
+    assert.equal(path.dirname(JSON.parse(r.stdout).outputs[0].png), out);
+    const file = path.join(dir, 'taken');
+    writeFileSync(file, 'keep me');
+    const bad = run(['explain', image, '--model', path.join(FIXTURES, 'parts/parts-sorter.onnx'), '--layer', 'last', '--out', file]);
+    assert.equal(bad.status, 2);
+    assert.match(bad.stderr, /cannot write into .*taken: it is a file, not a folder/);
+    assert.equal(bad.stderr.trim().split('\n').length, 1, bad.stderr);
+    assert.equal(readFileSync(file, 'utf8'), 'keep me');
+  });
+
   it('predict gives PyTorch\'s probabilities for every demo image (manifest.json: PyTorch float32 softmax, within 1e-4)', () => {
     const manifest = JSON.parse(readFileSync(path.join(FIXTURES, 'parts/demo/manifest.json'), 'utf8'));
     for (const m of manifest.images as { image: string; top3: { label: string; p: number }[] }[]) {
