@@ -3,8 +3,7 @@
  * on paper; the forward tensors x (input) and y (output) are batch 1 and broadcast over K.
  */
 import { attrFloat } from '../../model/graph';
-import { A } from '../builder';
-import { GradientRule, RuleContext } from '../rule';
+import { GradientRule, maskedGrad, RuleContext } from '../rule';
 
 type Local = (ctx: RuleContext, g: string, x: string, y: string) => string;
 
@@ -19,17 +18,10 @@ function unary(local: Local): GradientRule {
 const mul = (ctx: RuleContext, a: string, c: string) => ctx.b.op1('Mul', [a, c]);
 const positive = (ctx: RuleContext, x: string) => ctx.b.op1('Greater', [x, ctx.b.scalarF(0)]);
 
-/**
- * g where the forward mask holds, 0 elsewhere, as g · float(mask): the same values as
- * Where(mask, g, 0) for finite g, but onnxruntime's broadcasting Where over the K seeds is
- * single-threaded and ran 2.7–5× slower than Mul by the batch-1 float mask (test/bench, 3 Dec 2026).
- */
-const masked = (ctx: RuleContext, mask: string, g: string) => ctx.b.op1('Mul', [g, ctx.b.op1('Cast', [mask], { to: A.i(1) })]);
-
 /** Relu: g·[x>0]; guided backpropagation (Springenberg et al. 2015): g·[x>0]·[g>0]. */
 const relu: Local = (ctx, g, x) => {
   const { b } = ctx;
-  const passed = masked(ctx, positive(ctx, x), g);
+  const passed = maskedGrad(ctx, positive(ctx, x), g);
   return ctx.relu === 'guided' ? b.op1('Relu', [passed]) : passed;
 };
 
@@ -86,7 +78,7 @@ export const activationRules: Record<string, GradientRule> = {
     const and = (m: string) => (mask = mask ? b.op1('And', [mask, m]) : m);
     if (node.inputs[1] || lo !== undefined) and(b.op1('Greater', [x, lo !== undefined ? b.scalarF(lo) : node.inputs[1]]));
     if (node.inputs[2] || hi !== undefined) and(b.op1('Less', [x, hi !== undefined ? b.scalarF(hi) : node.inputs[2]]));
-    let gx = mask ? masked(ctx, mask, g) : g;
+    let gx = mask ? maskedGrad(ctx, mask, g) : g;
     if (ctx.relu === 'guided' && lo === 0) gx = b.op1('Relu', [gx]);
     return [gx];
   },

@@ -12,7 +12,7 @@
  */
 import { UserError } from '../../errors';
 import { nodeLabel } from '../../model/graph';
-import { GradientRule, RuleContext } from '../rule';
+import { GradientRule, maskedGrad, RuleContext } from '../rule';
 
 /** The scale (or zero point) shaped to broadcast against the forward tensor along `axis`. */
 function alongAxis(ctx: RuleContext, t: string, xRank: number): string {
@@ -38,8 +38,7 @@ const quantizeLinear: GradientRule = (ctx) => {
   // (whatever the integer type). The 1e-3 allows for the runtime's own float division.
   const q = b.op1('Cast', [node.outputs[0]], { to: { i: 1 } });
   const inside = b.op1('LessOrEqual', [b.op1('Abs', [b.op1('Sub', [u, q])]), b.scalarF(0.5 + 1e-3)]);
-  const mask = b.op1('Cast', [inside], { to: { i: 1 } });
-  return [b.op1('Div', [b.op1('Mul', [g, mask]), s])];
+  return [b.op1('Div', [maskedGrad(ctx, inside, g), s])];
 };
 
 const dequantizeLinear: GradientRule = (ctx) => {
