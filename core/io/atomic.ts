@@ -1,4 +1,4 @@
-import { promises as fsp, mkdirSync, Stats, statSync } from 'fs';
+import { promises as fsp, mkdirSync } from 'fs';
 import * as path from 'path';
 import { randomBytes } from 'crypto';
 import { UserError } from '../errors';
@@ -112,10 +112,10 @@ async function removeQuietly(file: string): Promise<void> {
  * fails at its first write. Making a folder overwrites nothing.
  */
 export function ensureOutputFolder(dir: string): void {
-  let st: Stats | undefined;
-  try { st = statSync(dir); } catch (e) { if (errnoCode(e) !== 'ENOENT') throw fsUserError(e, 'write', dir); }
-  if (st && !st.isDirectory()) throw new UserError(`cannot write into ${dir}: it is a file, not a folder`, 'give a folder for --out');
-  if (!st) {
-    try { mkdirSync(dir, { recursive: true }); } catch (e) { throw fsUserError(e, 'write', dir); }
+  try {
+    mkdirSync(dir, { recursive: true }); // an existing folder is fine; an existing file is EEXIST
+  } catch (e) {
+    if (errnoCode(e) === 'EEXIST') throw new UserError(`cannot write into ${dir}: it is a file, not a folder`, 'give a folder for --out');
+    throw fsUserError(e, 'write', dir);
   }
 }
