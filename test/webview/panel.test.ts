@@ -397,8 +397,8 @@ describe('panel in headless Chromium', function () {
     host.stallNext = true;
     await page.keyboard.press('ArrowRight');
     const stalled = await host.waitFor('requestMaps', 2);
-    await page.waitForSelector('.ff-status[data-kind="progress"] progress');
-    assert.match(await text(page, '.ff-status'), /Exact sweep: seed chunk 1 of 4/);
+    // The row first says 'Computing maps…' on its own; the host's progress message follows.
+    await page.waitForFunction(() => /Exact sweep: seed chunk 1 of 4/.test(document.querySelector('.ff-status[data-kind="progress"]')?.textContent ?? ''));
     assert.equal(await page.locator('.ff-status progress').evaluate((e) => (e as HTMLProgressElement).value), 0.25);
     await page.locator('.ff-status [data-action="cancel"]').click();
     assert.equal(host.last('cancel')?.id, stalled.id);
