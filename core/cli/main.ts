@@ -9,7 +9,7 @@ import { CliArgs, USAGE, modelPath, parseCommandArgs, resolveLayer } from './arg
 import { gradientsAt, lossSeed } from '../methods/gradient';
 import { resolveClass } from '../io/labels';
 import { encodeNpy } from '../io/npy';
-import { writeFileAtomic } from '../io/atomic';
+import { ensureOutputFolder, writeFileAtomic } from '../io/atomic';
 import { explainCommand } from './explain';
 import { checkCommand } from './check';
 import { noLayerReason } from '../model/layers';
@@ -80,6 +80,7 @@ async function gradCommand(engine: Engine, args: CliArgs): Promise<number> {
   if (!layer || target === undefined || !out) throw new UserError('grad needs --layer, --target and --out');
   const loss = (args.values.loss ?? 'logit') as 'logit' | 'ce';
   if (loss !== 'logit' && loss !== 'ce') throw new UserError(`--loss must be logit or ce, not '${loss}'`);
+  ensureOutputFolder(path.dirname(path.resolve(out))); // before the work, as explain and check do
   const input = args.values.input ? await tensorInput(ctx, args.values.input) : args.positionals[0] ? await imageInput(ctx, args.positionals[0]) : undefined;
   if (!input) throw new UserError('grad needs --input <x.npy> or an image');
   const id = resolveLayer(ctx.pm, layer, true)[0];

@@ -33,8 +33,8 @@ describe('factfoil CLI', () => {
     assert.doesNotMatch(demo.stderr, /note:/);
   });
 
-  it('grad matches the PyTorch float64 reference (test-fixtures/arch/resnet, rel L2 ≤ 1e-4)', async () => {
-    const out = path.join(mkdtempSync(path.join(tmpdir(), 'ff-')), 'g.npy');
+  it('grad matches the PyTorch float64 reference (test-fixtures/arch/resnet, rel L2 ≤ 1e-4), making the missing folder of --out', async () => {
+    const out = path.join(mkdtempSync(path.join(tmpdir(), 'ff-')), 'not', 'yet', 'g.npy');
     const r = run(['grad', '--model', path.join(FIXTURES, 'arch/resnet/model.onnx'), '--input', path.join(FIXTURES, 'arch/resnet/input.npy'), '--layer', 'stage2', '--target', '5', '--out', out]);
     assert.equal(r.status, 0, r.stderr);
     const g = await readNpy(out);
