@@ -2,7 +2,7 @@
 import { UserError } from '../../errors';
 import { attrInt, attrInts, nodeLabel } from '../../model/graph';
 import { explicitPads } from './conv';
-import { GradientRule, linearMapGradient, product } from '../rule';
+import { GradientRule, linearMapGradient, maskedGrad, product } from '../rule';
 
 /** MaxPool: scatter-add g to the forward's Indices (flattened (n·C+c)·H·W + h·W + w; ties go to the first maximum). */
 const maxPool: GradientRule = (ctx) => {
@@ -67,8 +67,7 @@ const globalMaxPool: GradientRule = (ctx) => {
   const g = ctx.gradOut[0];
   if (!g || !ctx.needs[0]) return [];
   const [x] = ctx.node.inputs;
-  const hit = ctx.b.op1('Equal', [x, ctx.node.outputs[0]]);
-  return [ctx.b.op1('Where', [hit, g, ctx.b.scalarF(0)])];
+  return [maskedGrad(ctx, ctx.b.op1('Equal', [x, ctx.node.outputs[0]]), g)];
 };
 
 export const poolRules: Record<string, GradientRule> = {

@@ -1,6 +1,6 @@
 /** Reductions over axes (axes from the attribute or, from opset 13/18, the second input). */
 import { attrInt, attrInts } from '../../model/graph';
-import { GradientRule, RuleContext, product, reshapeGrad } from '../rule';
+import { GradientRule, RuleContext, maskedGrad, product, reshapeGrad } from '../rule';
 
 function reducedAxes(ctx: RuleContext, rank: number): number[] {
   const { node } = ctx;
@@ -41,7 +41,7 @@ const extreme: GradientRule = (ctx) => {
   const xs = ctx.shape(x);
   const axes = reducedAxes(ctx, xs.length);
   const y = attrInt(node, 'keepdims', 1) === 1 ? node.outputs[0] : b.op1('Reshape', [node.outputs[0], b.constI64(xs.map((d, i) => (axes.includes(i) ? 1 : d)))]);
-  return [b.op1('Where', [b.op1('Equal', [x, y]), keptGrad(ctx, g, xs, axes), b.scalarF(0)])];
+  return [maskedGrad(ctx, b.op1('Equal', [x, y]), keptGrad(ctx, g, xs, axes))];
 };
 
 export const reduceRules: Record<string, GradientRule> = {
