@@ -9,9 +9,9 @@
  * runs instead of R; the top k of them (largest λ_j = s_j²) give a deterministic lower bound whose
  * missing part Σ_{j>k} (Jᵀu_j)² is a sum of squares.
  */
-import { EigenvalueDecomposition, Matrix } from 'ml-matrix';
 import { attrFloat, attrInt } from '../model/graph';
 import { PreparedModel } from '../plan/prepared';
+import { SymmetricEigen } from './symmetric-eigen';
 
 export interface LinearHead {
   /** W as R rows of D features, row-major, float64. */
@@ -25,8 +25,8 @@ export interface LinearHead {
 export interface HeadBasis {
   /** λ_j = s_j² of the centred weights, largest first (only those above the rank tolerance). */
   values: Float64Array;
-  /** ρ seed rows u_j of length R, row-major, unit length and orthogonal to the all-ones vector. */
-  seeds: Float32Array;
+  /** The first `count` (≤ ρ) seed rows u_j of length R, row-major, unit length, orthonormal and orthogonal to the all-ones vector; made on first use. */
+  seeds(count: number): Float32Array;
   rank: number;
   classes: number;
 }
@@ -79,14 +79,17 @@ export function headBasis(pm: PreparedModel): HeadBasis | undefined {
   if (!cache.has(key)) {
     const head = findLinearHead(pm);
     // Non-finite weights (a damaged model; found by test/fuzz) have no spectral basis: one-hot seeds then.
-    // Non-finite weights (a damaged model; found by test/fuzz) have no spectral basis: one-hot seeds then.
     cache.set(key, head && head.weight.every((v) => Number.isFinite(v)) ? spectralBasis(head) : null);
     if (cache.size > 16) cache.delete(cache.keys().next().value as string);
   }
   return cache.get(key) ?? undefined;
 }
 
-/** Left singular vectors of the class-centred weights, from the smaller Gram matrix (float64). */
+/**
+ * Left singular vectors of the class-centred weights, from the smaller Gram matrix (float64).
+ * Every eigenvalue is computed at once; the seed rows only when asked for (a probe needs its K,
+ * an exact sweep all ρ), since the vectors cost most.
+ */
 export function spectralBasis(head: LinearHead): HeadBasis {
   const { classes: R, features: D, weight } = head;
   const M = new Float64Array(R * D);
@@ -98,41 +101,22 @@ export function spectralBasis(head: LinearHead): HeadBasis {
   }
   const byClass = R <= D; // eigenvectors of M·Mᵀ are the u_j themselves; else u_j = M·v_j/s_j
   const n = byClass ? R : D;
-  const gram = new Float64Array(n * n);
-  if (byClass) {
-    for (let i = 0; i < R; i++) for (let j = i; j < R; j++) {
-      let s = 0;
-      for (let d = 0; d < D; d++) s += M[i * D + d] * M[j * D + d];
-      gram[i * n + j] = gram[j * n + i] = s;
-    }
-  } else {
-    for (let r = 0; r < R; r++) {
-      const row = r * D;
-      for (let i = 0; i < D; i++) {
-        const mi = M[row + i];
-        if (mi === 0) continue;
-        for (let j = i; j < D; j++) gram[i * n + j] += mi * M[row + j];
-      }
-    }
-    for (let i = 0; i < D; i++) for (let j = 0; j < i; j++) gram[i * n + j] = gram[j * n + i];
-  }
-  const rows = Array.from({ length: n }, (_, i) => Array.from(gram.subarray(i * n, (i + 1) * n)));
-  const evd = new EigenvalueDecomposition(new Matrix(rows), { assumeSymmetric: true });
-  const lambda = evd.realEigenvalues;
-  const V = Float64Array.from(evd.eigenvectorMatrix.to1DArray()); // row-major n×n, column j = eigenvector j
-  const order = lambda.map((_, i) => i).sort((x, y) => lambda[y] - lambda[x]);
-  const top = Math.max(lambda[order[0]] ?? 0, 0);
-  const kept = order.filter((i) => lambda[i] > top * RANK_TOLERANCE && lambda[i] > 0);
-  const seeds = new Float32Array(kept.length * R);
-  kept.forEach((col, j) => {
+  const gram = gramOfRows(byClass ? M : transpose(M, R, D), n, byClass ? D : R);
+  const eigen = new SymmetricEigen(gram, n);
+  const top = Math.max(eigen.values[0] ?? 0, 0);
+  let rank = 0;
+  while (rank < n && eigen.values[rank] > top * RANK_TOLERANCE && eigen.values[rank] > 0) rank++;
+  const values = eigen.values.slice(0, rank);
+  const rows: Float32Array[] = [];
+  const seedRow = (j: number): Float32Array => {
+    const vec = eigen.vector(j);
     const u = new Float64Array(R);
-    if (byClass) for (let r = 0; r < R; r++) u[r] = V[r * n + col];
+    if (byClass) u.set(vec);
     else {
-      const s = Math.sqrt(lambda[col]);
-      const v = Float64Array.from({ length: D }, (_, d) => V[d * n + col]);
+      const s = Math.sqrt(values[j]);
       for (let r = 0; r < R; r++) {
         let acc = 0;
-        for (let d = 0; d < D; d++) acc += M[r * D + d] * v[d];
+        for (let d = 0; d < D; d++) acc += M[r * D + d] * vec[d];
         u[r] = acc / s;
       }
     }
@@ -143,7 +127,59 @@ export function spectralBasis(head: LinearHead): HeadBasis {
     let norm = 0;
     for (let r = 0; r < R; r++) { u[r] -= mean; norm += u[r] * u[r]; }
     norm = Math.sqrt(norm);
-    for (let r = 0; r < R; r++) seeds[j * R + r] = u[r] / norm;
-  });
-  return { values: Float64Array.from(kept.map((i) => lambda[i])), seeds, rank: kept.length, classes: R };
+    return Float32Array.from(u, (x) => x / norm);
+  };
+  return {
+    values, rank, classes: R,
+    seeds(count: number): Float32Array {
+      const k = Math.min(Math.max(count, 0), rank);
+      while (rows.length < k) rows.push(seedRow(rows.length));
+      const out = new Float32Array(k * R);
+      for (let j = 0; j < k; j++) out.set(rows[j], j * R);
+      return out;
+    },
+  };
+}
+
+function transpose(x: Float64Array, rows: number, cols: number): Float64Array {
+  const t = new Float64Array(rows * cols);
+  for (let r = 0; r < rows; r++) for (let c = 0; c < cols; c++) t[c * rows + r] = x[r * cols + c];
+  return t;
+}
+
+/**
+ * G = X·Xᵀ for X with n rows of length L (row-major), in 4×4 tiles of rows so each pass over
+ * memory feeds 16 dot products: the one-row-at-a-time loop streamed all of X per row and took
+ * seconds on a 1000×2048 head.
+ */
+export function gramOfRows(x: Float64Array, n: number, L: number): Float64Array {
+  const g = new Float64Array(n * n);
+  const B = 4;
+  for (let i0 = 0; i0 < n; i0 += B) {
+    for (let j0 = i0; j0 < n; j0 += B) {
+      if (i0 + B <= n && j0 + B <= n) {
+        const a0 = i0 * L, a1 = a0 + L, a2 = a1 + L, a3 = a2 + L;
+        const b0 = j0 * L, b1 = b0 + L, b2 = b1 + L, b3 = b2 + L;
+        let s00 = 0, s01 = 0, s02 = 0, s03 = 0, s10 = 0, s11 = 0, s12 = 0, s13 = 0;
+        let s20 = 0, s21 = 0, s22 = 0, s23 = 0, s30 = 0, s31 = 0, s32 = 0, s33 = 0;
+        for (let d = 0; d < L; d++) {
+          const x0 = x[a0 + d], x1 = x[a1 + d], x2 = x[a2 + d], x3 = x[a3 + d];
+          const y0 = x[b0 + d], y1 = x[b1 + d], y2 = x[b2 + d], y3 = x[b3 + d];
+          s00 += x0 * y0; s01 += x0 * y1; s02 += x0 * y2; s03 += x0 * y3;
+          s10 += x1 * y0; s11 += x1 * y1; s12 += x1 * y2; s13 += x1 * y3;
+          s20 += x2 * y0; s21 += x2 * y1; s22 += x2 * y2; s23 += x2 * y3;
+          s30 += x3 * y0; s31 += x3 * y1; s32 += x3 * y2; s33 += x3 * y3;
+        }
+        const tile = [s00, s01, s02, s03, s10, s11, s12, s13, s20, s21, s22, s23, s30, s31, s32, s33];
+        for (let a = 0; a < B; a++) for (let b = 0; b < B; b++) g[(i0 + a) * n + j0 + b] = g[(j0 + b) * n + i0 + a] = tile[a * B + b];
+      } else {
+        for (let i = i0; i < Math.min(i0 + B, n); i++) for (let j = j0; j < Math.min(j0 + B, n); j++) {
+          let s = 0;
+          for (let d = 0; d < L; d++) s += x[i * L + d] * x[j * L + d];
+          g[i * n + j] = g[j * n + i] = s;
+        }
+      }
+    }
+  }
+  return g;
 }

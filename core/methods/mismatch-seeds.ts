@@ -43,7 +43,7 @@ export function sweepSeeds(pm: PreparedModel, plan: SweepPlan): SweepSeeds {
   const R = pm.scores.numClasses;
   if (plan.mode === 'exact') {
     const basis = plan.basis === 'one-hot' ? undefined : headBasis(pm);
-    if (basis) return { rows: basis.seeds, n: basis.rank, mean: 'zero', used: 'spectral basis', exactDirections: basis.rank };
+    if (basis) return { rows: basis.seeds(basis.rank), n: basis.rank, mean: 'zero', used: 'spectral basis', exactDirections: basis.rank };
     const rows = new Float32Array(R * R);
     const centred = plan.basis !== 'one-hot';
     for (let r = 0; r < R; r++) {
@@ -64,7 +64,7 @@ export function sweepSeeds(pm: PreparedModel, plan: SweepPlan): SweepSeeds {
   }
   if ((design === 'spectral' || design === 'rescaled') && basis) {
     const n = Math.min(K, basis.rank);
-    const rows = basis.seeds.slice(0, n * R);
+    const rows = basis.seeds(n);
     if (design === 'rescaled' && n < basis.rank) {
       const sum = (m: number) => basis.values.subarray(0, m).reduce((a, b) => a + b, 0);
       const scale = Math.sqrt(sum(basis.rank) / sum(n));
@@ -74,14 +74,15 @@ export function sweepSeeds(pm: PreparedModel, plan: SweepPlan): SweepSeeds {
   }
   const k = design === 'deflated' && basis ? deflationSize(basis, K) : 0;
   const rows = new Float32Array(K * R);
-  if (basis) rows.set(basis.seeds.subarray(0, k * R));
+  const exact = basis ? basis.seeds(k) : new Float32Array(0);
+  rows.set(exact);
   const probes = basis && k >= basis.rank ? 0 : K - k;
   for (let i = 0; i < probes; i++) {
     const v = rademacher();
     centre(v);
     // Remove the directions already taken exactly: v ← v − Σ_{j<k} u_j (u_jᵀ v).
     for (let j = 0; j < k; j++) {
-      const u = basis!.seeds.subarray(j * R, (j + 1) * R);
+      const u = exact.subarray(j * R, (j + 1) * R);
       let dot = 0;
       for (let r = 0; r < R; r++) dot += u[r] * v[r];
       for (let r = 0; r < R; r++) v[r] -= dot * u[r];

@@ -177,7 +177,7 @@ const out = {
   load_average: os.loadavg(),
   results,
   probe_curve: ours?.probe_curve?.map((c) => ({ ...c, pearson_mean: c.pearson.reduce((a, b) => a + b, 0) / c.pearson.length, rel_l2_mean: c.rel_l2.reduce((a, b) => a + b, 0) / c.rel_l2.length })) ?? null,
-  cold: { head_basis_ms: ours?.head_basis_ms ?? null, head_rank: ours?.head_rank ?? null, prepare_ms: ours?.prepare_ms ?? null, forward_cold_ms: ours?.forward_cold_ms ?? null, first_map_cold_ms: ours?.first_map_cold_ms ?? null, mismatch_compile_ms: ours?.mismatch_compile_ms ?? null },
+  cold: { head_basis_ms: ours?.head_basis_ms ?? null, head_values_ms: ours?.head_values_ms ?? null, head_basis_probe32_ms: ours?.head_basis_probe32_ms ?? null, resnet50_head_basis_ms: ours50?.head_basis_ms ?? null, head_rank: ours?.head_rank ?? null, prepare_ms: ours?.prepare_ms ?? null, forward_cold_ms: ours?.forward_cold_ms ?? null, first_map_cold_ms: ours?.first_map_cold_ms ?? null, mismatch_compile_ms: ours?.mismatch_compile_ms ?? null },
 };
 
 const f = (v) => (v == null ? '—' : Math.abs(v) >= 100 ? v.toFixed(0) : Math.abs(v) >= 1 ? v.toFixed(1) : v.toPrecision(3));

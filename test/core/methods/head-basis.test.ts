@@ -17,6 +17,7 @@ import { FIXTURES } from '../../helpers';
 function checkIdentity(head: LinearHead): number {
   const { weight: W, classes: R, features: D } = head;
   const basis = spectralBasis(head);
+  const seeds = basis.seeds(basis.rank);
   // WᵀPW[a,b] = Σ_r W[r,a]W[r,b] − (Σ_r W[r,a])(Σ_r W[r,b])/R.
   const colSum = new Float64Array(D);
   for (let r = 0; r < R; r++) for (let d = 0; d < D; d++) colSum[d] += W[r * D + d];
@@ -27,7 +28,7 @@ function checkIdentity(head: LinearHead): number {
     wtw[a * D + b] = s - (colSum[a] * colSum[b]) / R;
   }
   for (let j = 0; j < basis.rank; j++) {
-    const u = basis.seeds.subarray(j * R, (j + 1) * R);
+    const u = seeds.subarray(j * R, (j + 1) * R);
     const wu = new Float64Array(D);
     for (let r = 0; r < R; r++) for (let d = 0; d < D; d++) wu[d] += W[r * D + d] * u[r];
     for (let a = 0; a < D; a++) for (let b = 0; b < D; b++) got[a * D + b] += wu[a] * wu[b];
@@ -36,7 +37,7 @@ function checkIdentity(head: LinearHead): number {
     assert.ok(Math.abs(sum) < 1e-5, `row ${j} is orthogonal to the all-ones vector (sum ${sum})`);
     for (let i = 0; i <= j; i++) {
       let dot = 0;
-      for (let r = 0; r < R; r++) dot += u[r] * basis.seeds[i * R + r];
+      for (let r = 0; r < R; r++) dot += u[r] * seeds[i * R + r];
       assert.ok(Math.abs(dot - (i === j ? 1 : 0)) < 1e-5, `rows ${i},${j}: ${dot}`);
     }
   }
