@@ -188,7 +188,6 @@ function factorShifted(diag: Float64Array, off: Float64Array, lambda: number, ti
       swapped[i] = 1;
     }
   }
-  if (n > 0 && Math.abs(d[n - 1]) < tiny) d[n - 1] = tiny;
   for (let i = 0; i < n; i++) if (Math.abs(d[i]) < tiny) d[i] = d[i] < 0 ? -tiny : tiny;
   return { d, du, du2, dl, swapped };
 }
