@@ -3,7 +3,7 @@
  *
  * The head basis needs every eigenvalue (for the rank and the spectrum's total) but at most a
  * few dozen eigenvectors for a probe, and a full decomposition of a 1000×1000 Gram matrix took
- * 13 s in JavaScript (test/bench, 4 Dec 2026). So: Householder reduction to tridiagonal form
+ * 13 s in JavaScript (ml-matrix, the bench's ResNet-50 head, 4 Dec 2026). So: Householder reduction to tridiagonal form
  * (≈ 2n³ flops, no accumulated transform), every eigenvalue by Sturm-count bisection, and each
  * wanted eigenvector by inverse iteration on the tridiagonal matrix, orthogonalised against
  * earlier vectors of nearby eigenvalues, then carried back through the stored reflectors. These
